@@ -139,6 +139,8 @@ class Section:
     data: Any
     """Plain Python data (dict/list/str/number) as loaded."""
     line: int | None = None
+    node: Any = None
+    """The located :class:`texgen.loader.Node`, for precise error positions."""
 
 
 @dataclass(frozen=True)
