@@ -73,6 +73,11 @@ def test_agrees_with_sympy_without_functions(expr):
     assert to_latex(expr) == sp.latex(expr)
 
 
+def test_functions_with_arguments_agree_with_sympy():
+    expr = f(r) * h(r, theta) ** 2 + sp.sin(f(r))
+    assert to_latex(expr, function_arguments=True) == sp.latex(expr)
+
+
 def test_symbol_names_override():
     assert to_latex(1 - r_s / r, symbol_names={r_s: r"r_{\mathrm{s}}"}) == r"1 - \frac{r_{\mathrm{s}}}{r}"
 
@@ -353,6 +358,14 @@ def test_nested_brackets_close_and_reopen_per_line():
 def test_coefficient_is_not_distributed_when_breaking():
     expr = sp.Mul(2, x + y, evaluate=False)
     assert to_latex_lines(expr, 3) == [r"2 \left(x\right.", r"\left.+ y\right)"]
+
+
+def test_negative_product_keeps_its_sign_in_front():
+    expr = -2 * x * (x + y) * (x**9 + y**9 + x**5 * y**4 + x * y**8)
+    assert to_latex_lines(expr, 20) == [
+        r"- 2 x \left(x + y\right) \left(x^{9} + x^{5} y^{4}\right.",
+        r"\left.+ x y^{8} + y^{9}\right)",
+    ]
 
 
 def test_term_without_sum_stays_whole():

@@ -63,9 +63,9 @@ class TexgenLatexPrinter(LatexPrinter):
 
     :param symbol_names: LaTeX for symbols, and for undefined function classes
         (``{Function('f'): r"\mathcal{F}"}``), overriding the default names.
-    :param derivative_style: ``"auto"`` (primes, or dots for ``time_symbol``;
-        partial derivatives for functions of several variables), ``"prime"``,
-        ``"dot"`` or ``"partial"``.
+    :param derivative_style: ``"auto"`` (primes, or dots for ``time_symbol``),
+        ``"prime"``, ``"dot"`` or ``"partial"``; functions of several variables
+        always get partial derivatives, since a prime would not say which variable.
     :param time_symbol: the coordinate whose derivatives ``"auto"`` shows with dots.
     :param function_arguments: ``False`` prints ``f(r)`` as ``f`` when applied to
         its declared arguments; ``True`` always prints the arguments.
