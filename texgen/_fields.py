@@ -1,0 +1,964 @@
+"""Exact rational-function arithmetic for curvature work (private to :mod:`texgen.derive`).
+
+A metric's components are mapped into the fraction field of a polynomial ring whose
+generators are the coordinates, parameters and every non-rational atom (sin, cos, exp,
+free functions and their derivatives, square roots ...).  Elements are kept as
+``numerator / product of irreducible factors``: denominators stay factored, so sums
+need no gcd, only trial division by the known factors.  Algebraic generators (sin θ
+with sin² = 1 − cos², sinh with sinh² = cosh² − 1, sqrt(P) with S² = P, i² = −1) are
+reduced to degree one in numerators and removed from denominators by multiplying
+with conjugates, which makes the form canonical: zero tests and equality are
+structural.  Atoms without such a description become opaque generators (the form is
+then no longer canonical, and :meth:`Algebra.is_zero` backs up with numbers).
+Anything that cannot be mapped at all is handled by :class:`ExprAlgebra`, plain
+sympy expressions normalised with ``cancel``.
+"""
+from __future__ import annotations
+
+import random
+from dataclasses import dataclass, field
+from fractions import Fraction
+from typing import Any, Callable, Iterable, Sequence
+
+import mpmath
+import sympy as sp
+from sympy.core.function import AppliedUndef
+
+# python-flint is an optional accelerator: the same algorithm runs on sympy's
+# sparse polynomials when it is missing (only slower).
+try:  # pragma: no cover - availability depends on the installation
+    import flint as _flint
+except ImportError:  # pragma: no cover
+    _flint = None
+
+#: Derivative depth kept for generators: Riemann needs 2, the Bianchi check 3.
+MAX_DEPTH = 4
+
+
+class Unmappable(Exception):
+    """The expression has a part the polynomial field cannot represent."""
+
+
+# ---------------------------------------------------------------------------
+# polynomial backends: the few operations the field needs
+# ---------------------------------------------------------------------------
+
+def _to_rational(c: Any) -> sp.Rational:
+    p = getattr(c, "p", None)
+    if p is not None and not isinstance(c, sp.Basic):
+        return sp.Rational(int(p), int(c.q))
+    return sp.Rational(int(c.numerator), int(c.denominator))
+
+
+class _FlintPolys:
+    """Polynomials over QQ from python-flint (fmpq_mpoly), lex order."""
+
+    name = "flint"
+
+    def __init__(self, names: Sequence[str]):
+        self.ctx = _flint.fmpq_mpoly_ctx.get(tuple(names), "lex")
+        self.gens = list(self.ctx.gens()) if names else []
+        self.zero = self.ctx.constant(0)
+        self.one = self.ctx.constant(1)
+
+    def const(self, q: sp.Rational):
+        return self.ctx.constant(_flint.fmpq(int(q.p), int(q.q)))
+
+    def diff(self, p, i: int):
+        return p.derivative(i)
+
+    def degrees(self, p):
+        return p.degrees()
+
+    def factor(self, p):
+        c, fs = p.factor()
+        return _to_rational(c), list(fs)
+
+    def terms(self, p):
+        return zip(p.monoms(), p.coeffs())
+
+    def from_terms(self, d: dict):
+        return self.ctx.from_dict({k: _flint.fmpq(int(v.p), int(v.q)) for k, v in d.items()})
+
+    def nterms(self, p) -> int:
+        return len(p)
+
+
+class _SympyPolys:
+    """Polynomials over QQ from sympy.polys.rings, lex order (the pure-Python path)."""
+
+    name = "polys"
+
+    def __init__(self, names: Sequence[str]):
+        from sympy.polys.domains import QQ
+        from sympy.polys.rings import PolyRing
+
+        self.QQ = QQ
+        self.ring = PolyRing(tuple(names) or ("_unused",), QQ, "lex")
+        self.gens = list(self.ring.gens) if names else []
+        self.zero = self.ring.zero
+        self.one = self.ring.one
+
+    def const(self, q: sp.Rational):
+        return self.ring.ground_new(self.QQ(int(q.p), int(q.q)))
+
+    def diff(self, p, i: int):
+        return p.diff(self.gens[i])
+
+    def degrees(self, p):
+        return p.degrees()
+
+    def factor(self, p):
+        c, fs = p.factor_list()
+        return _to_rational(c), list(fs)
+
+    def terms(self, p):
+        return p.terms()
+
+    def from_terms(self, d: dict):
+        return self.ring.from_dict({k: self.QQ(int(v.p), int(v.q)) for k, v in d.items()})
+
+    def nterms(self, p) -> int:
+        return len(p)
+
+
+def available_backends() -> tuple[str, ...]:
+    """Names of the polynomial backends that can run here, fastest first."""
+    return ("flint", "polys") if _flint is not None else ("polys",)
+
+
+# ---------------------------------------------------------------------------
+# generators
+# ---------------------------------------------------------------------------
+
+@dataclass
+class Gen:
+    """One generator of the polynomial ring and what it stands for."""
+
+    expr: sp.Expr
+    kind: str  # symbol, const, sin, cos, sinh, cosh, sqrt, exp, func, opaque, imag
+    depth: int = 0
+    key: Any = None  # argument of a trig pair, or radicand of a sqrt
+    derivs: dict = field(default_factory=dict)  # coordinate index -> sympy expr (missing: 0)
+    algebraic: bool = False
+    exact: bool = True
+
+
+_TRIG_REWRITE = {
+    sp.tan: lambda u: sp.sin(u) / sp.cos(u),
+    sp.cot: lambda u: sp.cos(u) / sp.sin(u),
+    sp.sec: lambda u: 1 / sp.cos(u),
+    sp.csc: lambda u: 1 / sp.sin(u),
+    sp.tanh: lambda u: sp.sinh(u) / sp.cosh(u),
+    sp.coth: lambda u: sp.cosh(u) / sp.sinh(u),
+    sp.sech: lambda u: 1 / sp.cosh(u),
+    sp.csch: lambda u: 1 / sp.sinh(u),
+}
+
+
+def prepare(expr: sp.Expr) -> sp.Expr:
+    """Rewrite tan-like functions through sin/cos and expand multiple angles."""
+    expr = sp.sympify(expr)
+    for f, rule in _TRIG_REWRITE.items():
+        if expr.has(f):
+            expr = expr.replace(f, rule)
+
+    def multiple(x):
+        if isinstance(x, (sp.sin, sp.cos, sp.sinh, sp.cosh)):
+            c, _ = x.args[0].as_coeff_Mul()
+            return c.is_Integer and abs(c) > 1
+        return False
+
+    if expr.has(sp.sin, sp.cos, sp.sinh, sp.cosh):
+        expr = expr.replace(multiple, lambda x: sp.expand_trig(x))
+    return expr
+
+
+class _Discovery:
+    """Walks expressions and collects the generators (closed under differentiation)."""
+
+    def __init__(self, coordinates: Sequence[sp.Symbol]):
+        self.coords = tuple(coordinates)
+        self.gens: dict[sp.Expr, Gen] = {}
+        self.exp_coeffs: dict[sp.Expr, set] = {}
+        self.exp_gens: dict[sp.Expr, Gen] = {}
+        self.pending: list[Gen] = []
+
+    def add(self, expr: sp.Expr, kind: str, depth: int, key=None) -> None:
+        if expr in self.gens:
+            g = self.gens[expr]
+            if depth < g.depth:
+                g.depth = depth
+            return
+        g = Gen(expr, kind, depth, key)
+        self.gens[expr] = g
+        if kind not in ("symbol", "const", "imag"):
+            self.pending.append(g)
+
+    def walk(self, e: sp.Expr, depth: int = 0) -> None:
+        if e.is_Rational:
+            return
+        if e.is_Float:
+            raise Unmappable(f"floating-point number {e}")
+        if e is sp.I:
+            self.add(e, "imag", 0)
+            return
+        if e.is_Symbol:
+            self.add(e, "symbol", 0)
+            return
+        if e.is_NumberSymbol:
+            if e is sp.E:
+                self.exp_coeffs.setdefault(sp.S.One, set()).add(sp.S.One)
+                return
+            self.add(e, "const", 0)
+            return
+        if e.is_Add or e.is_Mul:
+            for a in e.args:
+                self.walk(a, depth)
+            return
+        if e.is_Pow:
+            b, x = e.args
+            if x.is_Integer:
+                self.walk(b, depth)
+                return
+            if x.is_Rational and x.q == 2:
+                self._sqrt(b, depth)
+                return
+            if b is sp.E:
+                self._exp(x, depth)
+                return
+            self.walk(b, depth)
+            self.walk(x, depth)
+            self.add(e, "opaque", depth)
+            return
+        if isinstance(e, sp.exp):
+            self._exp(e.args[0], depth)
+            return
+        if isinstance(e, (sp.sin, sp.cos)):
+            u = e.args[0]
+            self.walk(u, depth)
+            self.add(sp.cos(u), "cos", depth, u)
+            self.add(sp.sin(u), "sin", depth, u)
+            return
+        if isinstance(e, (sp.sinh, sp.cosh)):
+            u = e.args[0]
+            self.walk(u, depth)
+            self.add(sp.cosh(u), "cosh", depth, u)
+            self.add(sp.sinh(u), "sinh", depth, u)
+            return
+        if isinstance(e, AppliedUndef):
+            for a in e.args:
+                self.walk(a, depth)
+            self.add(e, "func", depth)
+            return
+        if isinstance(e, sp.Derivative) and isinstance(e.expr, AppliedUndef):
+            self.add(e, "func", depth)
+            return
+        if isinstance(e, sp.Function) and not isinstance(e, sp.Piecewise):
+            for a in e.args:
+                self.walk(a, depth)
+            self.add(e, "opaque", depth)
+            return
+        raise Unmappable(f"cannot represent {e}")
+
+    def _sqrt(self, b: sp.Expr, depth: int) -> None:
+        num, den = sp.fraction(sp.together(b))
+        for part in (num, den):
+            if part == 1:
+                continue
+            self.walk(part, depth)
+            self.add(sp.sqrt(part, evaluate=False), "sqrt", depth, part)
+        if den != 1 and not den.is_positive:
+            # sqrt(N/D) = sqrt(N)/sqrt(D) needs D > 0; without that, keep it opaque
+            self.add(sp.sqrt(b), "opaque", depth)
+
+    def _exp(self, u: sp.Expr, depth: int) -> None:
+        for term in sp.Add.make_args(sp.expand(u)):
+            c, rest = term.as_coeff_Mul()
+            if not c.is_Rational:
+                raise Unmappable(f"exponent {u}")
+            self.walk(rest, depth)
+            self.exp_coeffs.setdefault(rest, set()).add(c)
+
+    def close(self) -> None:
+        """Differentiate the function-like generators until MAX_DEPTH."""
+        while self.pending or self._exp_pending():
+            while self.pending:
+                g = self.pending.pop()
+                if g.kind == "exp":
+                    continue  # exp generators are created in _exp_pending
+                self._derive(g)
+
+    def _exp_pending(self) -> bool:
+        made = False
+        for rest, cs in self.exp_coeffs.items():
+            base = _rational_gcd(cs)
+            g = self.exp_gens.get(rest)
+            if g is None:
+                g = Gen(sp.exp(base * rest), "exp", 0, (rest, base))
+                self.exp_gens[rest] = g
+                self.gens[g.expr] = g
+                self._derive(g)
+                made = True
+            elif g.key != (rest, base):  # a new multiple appeared after the generator was made
+                raise Unmappable(f"exponentials of {rest} with incommensurable multiples")
+        return made
+
+    def _derive(self, g: Gen) -> None:
+        if g.depth >= MAX_DEPTH:
+            g.derivs = None  # not available: using it raises
+            return
+        for k, x in enumerate(self.coords):
+            if g.kind == "exp":
+                rest, base = g.key
+                d = base * sp.diff(rest, x)
+                if d != 0:
+                    g.derivs[k] = ("exp", d)
+                    self.walk(prepare(d), g.depth + 1)
+                continue
+            if not g.expr.has(x):
+                continue
+            d = sp.diff(g.expr, x)
+            if d != 0:
+                d = prepare(d)
+                g.derivs[k] = d
+                self.walk(d, g.depth + 1)
+
+
+def _rational_gcd(cs: Iterable[sp.Rational]) -> sp.Rational:
+    num = 0
+    den = 1
+    for c in cs:
+        num = sp.igcd(num, int(c.p))
+        den = sp.ilcm(den, int(c.q))
+    return sp.Rational(num, den) if num else sp.S.One
+
+
+# ---------------------------------------------------------------------------
+# the field
+# ---------------------------------------------------------------------------
+
+class Rat:
+    """An element ``num / prod(factor_i ** e_i)`` of a :class:`FieldAlgebra`."""
+
+    __slots__ = ("F", "num", "den")
+
+    def __init__(self, F: "FieldAlgebra", num, den: tuple = ()):
+        self.F = F
+        self.num = num
+        self.den = den  # sorted tuple of (factor index, exponent > 0)
+
+    def __add__(self, other):
+        return self.F.add(self, self.F.coerce(other))
+
+    __radd__ = __add__
+
+    def __sub__(self, other):
+        return self.F.add(self, -self.F.coerce(other))
+
+    def __rsub__(self, other):
+        return self.F.add(self.F.coerce(other), -self)
+
+    def __neg__(self):
+        return Rat(self.F, -self.num, self.den)
+
+    def __mul__(self, other):
+        if isinstance(other, (int, Fraction, sp.Rational)):
+            return self.F.scale(self, other)
+        return self.F.mul(self, other)
+
+    __rmul__ = __mul__
+
+    def __truediv__(self, other):
+        if isinstance(other, (int, Fraction, sp.Rational)):
+            return self.F.scale(self, sp.S.One / sp.Rational(other))
+        return self.F.mul(self, self.F.inv(other))
+
+    def __rtruediv__(self, other):
+        return self.F.mul(self.F.coerce(other), self.F.inv(self))
+
+    def __pow__(self, k: int):
+        return self.F.power(self, k)
+
+    def __eq__(self, other):
+        other = self.F.coerce(other)
+        return self.den == other.den and self.num == other.num
+
+    def __hash__(self):  # elements are only compared, never used as keys
+        return hash(self.den)
+
+    def is_zero(self) -> bool:
+        return self.num == 0
+
+    def __repr__(self):
+        return f"Rat({self.F.to_sympy(self)})"
+
+
+class FieldAlgebra:
+    """The fraction field of one spacetime's generators, with the relations above.
+
+    :param coordinates: coordinate symbols (derivatives are taken along these).
+    :param expressions: every expression that will be converted (the metric, Λ ...).
+    :param backend: ``"flint"`` or ``"polys"``.
+    """
+
+    name = "field"
+
+    def __init__(self, coordinates: Sequence[sp.Symbol], expressions: Iterable[sp.Expr],
+                 backend: str = "flint"):
+        self.coordinates = tuple(coordinates)
+        disc = _Discovery(self.coordinates)
+        for c in self.coordinates:
+            disc.add(c, "symbol", 0)
+        for e in expressions:
+            disc.walk(prepare(e))
+        disc.close()
+        gens = list(disc.gens.values())
+        # algebraic generators first: with lex order the relation X^2 - R then has
+        # leading term X^2 and polynomial division reduces to degree one in X.
+        for g in gens:
+            g.algebraic = g.kind in ("sin", "sinh", "sqrt", "imag")
+        order = {"imag": 0, "sin": 1, "sinh": 1, "sqrt": 2}
+        coords = {c: i for i, c in enumerate(self.coordinates)}
+
+        def rank(g):
+            # coordinates lead the lex order so that factors print as r - 2M, not 2M - r
+            if g.algebraic:
+                return (0, order[g.kind], 0, sp.default_sort_key(g.expr))
+            if g.expr in coords:
+                return (1, 0, coords[g.expr], ())
+            if g.kind in ("symbol", "const"):
+                return (3, 0, 0, sp.default_sort_key(g.expr))
+            return (2, 0, 0, sp.default_sort_key(g.expr))
+
+        gens.sort(key=rank)
+        self.gens = gens
+        self.index = {g.expr: i for i, g in enumerate(gens)}
+        names = [f"x{i}" for i in range(len(gens))]
+        if backend == "flint" and _flint is None:
+            backend = "polys"
+        self.P = _FlintPolys(names) if backend == "flint" else _SympyPolys(names)
+        self.backend = self.P.name
+        self.exp_of = {g.key[0]: (i, g.key[1]) for i, g in enumerate(gens) if g.kind == "exp"}
+        self.trig = {(g.kind, g.key): i for i, g in enumerate(gens) if g.kind in ("sin", "cos", "sinh", "cosh")}
+        self.factors: list = []
+        self.factor_expr: list = []
+        self.factor_key: dict = {}
+        self.factor_diff: dict = {}
+        self.zero = Rat(self, self.P.zero)
+        self.one = Rat(self, self.P.one)
+        self._memo: dict = {}
+        self.exact = True
+        self.relations: list[tuple[int, Any]] = []  # (generator index, X^2 - R)
+        self.square_of: dict[int, tuple] = {}  # sin-like X: den factors making up X^2
+        self._check_exactness()
+        self._setup_relations()
+        self._memo.clear()  # conversions made before all relations were known
+        # derivatives of generators as field elements
+        self.gen_diff: list[dict] = []
+        for i, g in enumerate(gens):
+            dd = {}
+            if g.kind == "symbol" and g.expr in self.coordinates:
+                dd = {self.coordinates.index(g.expr): self.one}
+            elif g.derivs is None:
+                dd = None
+            else:
+                for k, d in g.derivs.items():
+                    if isinstance(d, tuple):  # exp: d exp(b u) = exp(b u) * b u'
+                        dd[k] = self.gen(i) * self.from_sympy(d[1])
+                    else:
+                        dd[k] = self.from_sympy(d)
+            self.gen_diff.append(dd)
+
+    # -- setup -------------------------------------------------------------
+    def _check_exactness(self) -> None:
+        keys = [g.key for g in self.gens if g.kind in ("sin", "sinh")]
+        for u in keys:
+            if not u.is_Symbol:
+                self.exact = False  # e.g. sin(theta) and sin(theta + phi) are related
+        rests = [r for r in self.exp_of if r != 1]
+        for r in rests:
+            if r.is_Add:
+                self.exact = False
+        for g in self.gens:
+            if g.kind == "opaque":
+                self.exact = False
+            if isinstance(g.expr, sp.log) and not g.expr.args[0].is_Symbol:
+                self.exact = False
+
+    def _setup_relations(self) -> None:
+        for i, g in enumerate(self.gens):
+            if not g.algebraic:
+                continue
+            if g.kind == "imag":
+                R = self.P.const(sp.S.NegativeOne)
+            elif g.kind == "sin":
+                c = self.P.gens[self.trig[("cos", g.key)]]
+                R = self.P.one - c * c
+            elif g.kind == "sinh":
+                c = self.P.gens[self.trig[("cosh", g.key)]]
+                R = c * c - self.P.one
+            else:  # sqrt
+                try:
+                    r = self.from_sympy(g.key)
+                except Unmappable:
+                    r = None
+                if r is None or r.den or any(
+                        self.P.degrees(r.num)[j] for j, h in enumerate(self.gens) if h.algebraic):
+                    g.algebraic = False
+                    g.kind = "opaque"
+                    self.exact = False
+                    continue
+                R = r.num
+            X = self.P.gens[i]
+            self.relations.append((i, X * X - R))
+            const, fs = self.P.factor(R)
+            if any(e > 1 for _, e in fs) and g.kind == "sqrt":
+                self.exact = False  # S^2 = P with P not square-free: zero divisors
+            if g.kind in ("sin", "sinh"):
+                self.square_of[i] = (const, tuple(sorted((self._factor_id(f)[0], e) for f, e in fs)))
+
+    def _factor_id(self, f) -> tuple[int, sp.Rational]:
+        """Index of the normalised irreducible factor f in the factor base, and the unit."""
+        terms = dict(self.P.terms(f))
+        lead = max(terms)  # lex-leading monomial
+        coeffs = [_to_rational(c) for c in terms.values()]
+        den = 1
+        num = 0
+        for c in coeffs:
+            den = sp.ilcm(den, int(c.q))
+            num = sp.igcd(num, int(c.p))
+        unit = sp.Rational(num, den)
+        if _to_rational(terms[lead]) < 0:
+            unit = -unit
+        key = tuple(sorted((m, _to_rational(c) / unit) for m, c in terms.items()))
+        idx = self.factor_key.get(key)
+        if idx is None:
+            normal = self.P.from_terms({m: c for m, c in key})
+            idx = len(self.factors)
+            self.factors.append(normal)
+            self.factor_expr.append(None)
+            self.factor_key[key] = idx
+        return idx, unit
+
+    # -- conversion --------------------------------------------------------
+    def gen(self, i: int) -> Rat:
+        return Rat(self, self.P.gens[i])
+
+    def coerce(self, x) -> Rat:
+        if isinstance(x, Rat):
+            return x
+        if isinstance(x, Fraction):
+            x = sp.Rational(x.numerator, x.denominator)
+        return Rat(self, self.P.const(sp.Rational(x)))
+
+    def const(self, q) -> Rat:
+        return self.coerce(q)
+
+    def from_sympy(self, expr: sp.Expr) -> Rat:
+        """Convert a sympy expression; raise :class:`Unmappable` for unknown atoms."""
+        return self._conv(prepare(sp.sympify(expr)))
+
+    def _conv(self, e: sp.Expr) -> Rat:
+        got = self._memo.get(e)
+        if got is not None:
+            return got
+        out = self._conv_new(e)
+        self._memo[e] = out
+        return out
+
+    def _conv_new(self, e: sp.Expr) -> Rat:
+        if e.is_Rational:
+            return self.coerce(e)
+        i = self.index.get(e)
+        if i is not None and self.gens[i].kind != "exp":
+            return self.gen(i)
+        if e.is_Add:
+            return self.sum_products([(1, (self._conv(a),)) for a in e.args])
+        if e.is_Mul:
+            out = self.one
+            for a in e.args:
+                out = self.mul(out, self._conv(a))
+            return out
+        if e is sp.E:
+            return self._exp(sp.S.One)
+        if e.is_Pow:
+            b, x = e.args
+            if x.is_Integer:
+                return self.power(self._conv(b), int(x))
+            if x.is_Rational and x.q == 2:
+                num, den = sp.fraction(sp.together(b))
+                if den == 1 or den.is_positive:
+                    out = self.one
+                    for part, sgn in ((num, 1), (den, -1)):
+                        if part == 1:
+                            continue
+                        j = self.index.get(sp.sqrt(part, evaluate=False))
+                        if j is None:
+                            raise Unmappable(f"square root of {part}")
+                        out = self.mul(out, self.power(self.gen(j), sgn * int(x.p)))
+                    return out
+                j = self.index.get(sp.sqrt(b))
+                if j is None:
+                    raise Unmappable(f"{e}")
+                return self.power(self.gen(j), int(x.p))
+            if b is sp.E:
+                return self._exp(x)
+            raise Unmappable(f"power {e}")
+        if isinstance(e, sp.exp):
+            return self._exp(e.args[0])
+        raise Unmappable(f"cannot represent {e}")
+
+    def _exp(self, u: sp.Expr) -> Rat:
+        out = self.one
+        for term in sp.Add.make_args(sp.expand(u)):
+            c, rest = term.as_coeff_Mul()
+            got = self.exp_of.get(rest)
+            if got is None:
+                raise Unmappable(f"exp({u})")
+            i, base = got
+            k = c / base
+            if not k.is_Integer:
+                raise Unmappable(f"exp({u})")
+            out = self.mul(out, self.power(self.gen(i), int(k)))
+        return out
+
+    def poly_to_sympy(self, p) -> sp.Expr:
+        exprs = [g.expr for g in self.gens]
+        terms = []
+        for m, c in self.P.terms(p):
+            factors = [_to_rational(c)]
+            for j, e in enumerate(m):
+                if e:
+                    factors.append(exprs[j] ** e)
+            terms.append(sp.Mul(*factors))
+        return sp.Add(*terms)
+
+    def _den_to_sympy(self, den: tuple, names: dict | None = None) -> tuple[sp.Expr, sp.Expr]:
+        """(denominator expression, constant to multiply the numerator by).
+
+        ``names`` maps factor indices to expressions shown instead (definitions).
+        """
+        exps = dict(den)
+        out = []
+        unit = sp.S.One
+        for i, (const, fs) in self.square_of.items():
+            # (1 - cos)(1 + cos) in a denominator is printed as sin^2
+            k = min((exps.get(j, 0) // e for j, e in fs), default=0)
+            if k and fs:
+                for j, e in fs:
+                    exps[j] -= k * e
+                out.append(self.gens[i].expr ** (2 * k))
+                unit *= const ** k
+        for j, e in sorted(exps.items()):
+            if e and names and j in names:
+                out.append(names[j] ** e)
+            elif e:
+                if self.factor_expr[j] is None:
+                    self.factor_expr[j] = self.poly_to_sympy(self.factors[j])
+                out.append(self.factor_expr[j] ** e)
+        return sp.Mul(*out), unit
+
+    def to_sympy(self, x: Rat) -> sp.Expr:
+        """The canonical sympy form: expanded numerator over factored denominator."""
+        num = self.poly_to_sympy(x.num)
+        if not x.den:
+            return num
+        den, unit = self._den_to_sympy(x.den)
+        return sp.Mul(num * unit, sp.Pow(den, -1)) if unit != 1 else num / den
+
+    # -- arithmetic ----------------------------------------------------------
+    def reduce(self, p):
+        """Reduce a numerator modulo the algebraic relations."""
+        if not self.relations:
+            return p
+        degs = self.P.degrees(p)
+        for i, rel in self.relations:
+            if degs[i] >= 2:
+                p = divmod(p, rel)[1]
+        return p
+
+    def _cancel(self, num, den: dict) -> Rat:
+        if num == 0:
+            return self.zero
+        out = []
+        for i in sorted(den):
+            e = den[i]
+            if e <= 0:
+                continue
+            f = self.factors[i]
+            while e:
+                q, r = divmod(num, f)
+                if r != 0:
+                    break
+                num = q
+                e -= 1
+            if e:
+                out.append((i, e))
+        return Rat(self, num, tuple(out))
+
+    def _den_poly(self, exps: dict):
+        p = self.P.one
+        for i, e in exps.items():
+            if e:
+                p = p * self.factors[i] ** e
+        return p
+
+    def add(self, x: Rat, y: Rat) -> Rat:
+        if x.num == 0:
+            return y
+        if y.num == 0:
+            return x
+        if x.den == y.den:
+            return self._cancel(x.num + y.num, dict(x.den))
+        return self.sum_products([(1, (x,)), (1, (y,))])
+
+    def scale(self, x: Rat, q) -> Rat:
+        q = sp.Rational(q)
+        if q == 0:
+            return self.zero
+        return Rat(self, x.num * self.P.const(q), x.den)
+
+    def mul(self, x: Rat, y: Rat) -> Rat:
+        if x.num == 0 or y.num == 0:
+            return self.zero
+        den = dict(x.den)
+        for i, e in y.den:
+            den[i] = den.get(i, 0) + e
+        return self._cancel(self.reduce(x.num * y.num), den)
+
+    def power(self, x: Rat, k: int) -> Rat:
+        if k < 0:
+            return self.power(self.inv(x), -k)
+        out = self.one
+        base = x
+        while k:
+            if k & 1:
+                out = self.mul(out, base)
+            k >>= 1
+            if k:
+                base = self.mul(base, base)
+        return out
+
+    def inv(self, x: Rat) -> Rat:
+        if x.num == 0:
+            raise ZeroDivisionError("division by zero")
+        num = self._den_poly(dict(x.den))
+        d = x.num
+        for i, _rel in self.relations:
+            if self.P.degrees(d)[i] == 0:
+                continue
+            X = self.P.gens[i]
+            b, a = divmod(d, X)  # d = a + b X with a, b free of X (d is reduced)
+            conj = a - b * X
+            d = self.reduce(d * conj)
+            num = self.reduce(num * conj)
+            if d == 0:
+                raise Unmappable("a relation makes this denominator vanish")
+        const, fs = self.P.factor(d)
+        den: dict[int, int] = {}
+        unit = const
+        for f, e in fs:
+            i, u = self._factor_id(f)
+            den[i] = den.get(i, 0) + e
+            unit *= u ** e
+        return self._cancel(num * self.P.const(1 / unit), den)
+
+    def sum_products(self, terms: Sequence[tuple[Any, Sequence[Rat]]]) -> Rat:
+        """``sum(c * prod(factors))`` with one common denominator and one cancellation."""
+        prods = []
+        for c, fs in terms:
+            if c == 0 or any(f.num == 0 for f in fs):
+                continue
+            num = self.P.const(sp.Rational(c))
+            den: dict[int, int] = {}
+            for f in fs:
+                num = num * f.num
+                for i, e in f.den:
+                    den[i] = den.get(i, 0) + e
+            prods.append((num, den))
+        if not prods:
+            return self.zero
+        common: dict[int, int] = {}
+        for _, den in prods:
+            for i, e in den.items():
+                if e > common.get(i, 0):
+                    common[i] = e
+        total = self.P.zero
+        for num, den in prods:
+            missing = {i: e - den.get(i, 0) for i, e in common.items() if e > den.get(i, 0)}
+            total = total + (num * self._den_poly(missing) if missing else num)
+        return self._cancel(self.reduce(total), common)
+
+    def diff(self, x: Rat, k: int) -> Rat:
+        """Partial derivative along coordinate k."""
+        dn = self._poly_diff(x.num, k)
+        if not x.den:
+            return dn
+        # d(N/D) = dN/D - N/D * sum_i e_i dp_i/p_i
+        inv_den = Rat(self, self.P.one, x.den)
+        terms = [(1, (dn, inv_den))]
+        xr = Rat(self, x.num, x.den)
+        for i, e in x.den:
+            dp = self._factor_diff(i, k)
+            if dp.num == 0:
+                continue
+            terms.append((-e, (xr, dp, Rat(self, self.P.one, ((i, 1),)))))
+        return self.sum_products(terms)
+
+    def _factor_diff(self, i: int, k: int) -> Rat:
+        got = self.factor_diff.get((i, k))
+        if got is None:
+            got = self._poly_diff(self.factors[i], k)
+            self.factor_diff[(i, k)] = got
+        return got
+
+    def _poly_diff(self, p, k: int) -> Rat:
+        degs = self.P.degrees(p)
+        terms = []
+        for j, dg in enumerate(degs):
+            if not dg:
+                continue
+            gd = self.gen_diff[j]
+            if gd is None:
+                raise Unmappable(f"derivative of {self.gens[j].expr} beyond the kept depth")
+            d = gd.get(k)
+            if d is None or d.num == 0:
+                continue
+            terms.append((1, (Rat(self, self.P.diff(p, j)), d)))
+        return self.sum_products(terms)
+
+    # -- queries --------------------------------------------------------------
+    def is_zero_fast(self, x: Rat) -> bool:
+        return x.num == 0
+
+    def size(self, x: Rat) -> int:
+        return self.P.nterms(x.num)
+
+    def normal(self, x: Rat) -> Rat:
+        return x
+
+    def numerator_factors(self, x: Rat):
+        """(constant, [(sympy factor, exponent)]) of the numerator, for display."""
+        const, fs = self.P.factor(x.num)
+        return const, [(self.poly_to_sympy(f), e) for f, e in fs]
+
+    def denominator_parts(self, x: Rat):
+        """(unit, [(sympy factor or sin-like generator power, exponent)])."""
+        den, unit = self._den_to_sympy(x.den)
+        return unit, den
+
+
+class ExprAlgebra:
+    """Fallback: plain sympy expressions, normalised with ``cancel`` (not ``simplify``)."""
+
+    name = "expr"
+    backend = "sympy"
+    exact = False
+
+    def __init__(self, coordinates: Sequence[sp.Symbol], expressions: Iterable[sp.Expr] = ()):
+        self.coordinates = tuple(coordinates)
+        self.zero = sp.S.Zero
+        self.one = sp.S.One
+
+    def coerce(self, x):
+        return sp.sympify(x)
+
+    const = coerce
+
+    def from_sympy(self, expr):
+        return self.normal(sp.sympify(expr))
+
+    def to_sympy(self, x):
+        return x
+
+    def normal(self, x):
+        x = sp.sympify(x)
+        if x.is_Rational:
+            return x
+        return sp.cancel(sp.together(sp.expand(x)))
+
+    def add(self, x, y):
+        return self.normal(x + y)
+
+    def mul(self, x, y):
+        return self.normal(x * y)
+
+    def inv(self, x):
+        if x == 0:
+            raise ZeroDivisionError("division by zero")
+        return self.normal(1 / x)
+
+    def sum_products(self, terms):
+        return self.normal(sp.Add(*[sp.Mul(sp.Rational(c), *fs) for c, fs in terms]))
+
+    def diff(self, x, k):
+        return self.normal(sp.diff(x, self.coordinates[k]))
+
+    def is_zero_fast(self, x) -> bool:
+        return x == 0
+
+    def size(self, x) -> int:
+        return len(sp.Add.make_args(sp.numer(x)))
+
+
+def make_algebra(coordinates, expressions, backend: str = "auto"):
+    """The fastest algebra that can represent ``expressions``.
+
+    :param backend: ``auto`` (flint if installed, else sympy polys; the expression
+        fallback if the field cannot represent the input), ``flint``, ``polys`` or ``expr``.
+    """
+    expressions = list(expressions)
+    if backend == "expr":
+        return ExprAlgebra(coordinates, expressions)
+    want = available_backends()[0] if backend == "auto" else backend
+    try:
+        F = FieldAlgebra(coordinates, expressions, backend=want)
+        for e in expressions:
+            F.from_sympy(e)
+        return F
+    except Unmappable:
+        if backend != "auto":
+            raise
+        return ExprAlgebra(coordinates, expressions)
+
+
+# ---------------------------------------------------------------------------
+# numerical zero test
+# ---------------------------------------------------------------------------
+
+def numeric_zero(expr: sp.Expr, symbols: Sequence[sp.Symbol], *, points: int = 3,
+                 digits: int = 50, seed: int = 12345) -> bool:
+    """True if ``expr`` vanishes at random points (free functions replaced by random polynomials).
+
+    Values are taken in [1/2, 3/2] shifted to respect sign assumptions; with 50 digits a
+    value below 10^-30 is taken as zero.
+    """
+    rng = random.Random(seed)
+    expr = sp.sympify(expr)
+    funcs = {a.func: a.args for a in expr.atoms(AppliedUndef)}
+    for d in expr.atoms(sp.Derivative):
+        if isinstance(d.expr, AppliedUndef):
+            funcs[d.expr.func] = d.expr.args
+    free = sorted(expr.free_symbols | set(symbols), key=str)
+    for _ in range(points):
+        e = expr
+        for f, args in funcs.items():
+            poly = sum(sp.Rational(rng.randint(1, 9), rng.randint(1, 9)) * sp.Mul(*args) ** k
+                       for k in range(4))
+            e = e.replace(f, sp.Lambda(args, poly))
+        e = e.doit()
+        subs = {}
+        for s in free:
+            v = sp.Rational(rng.randint(500, 1500), 1000)
+            subs[s] = -v if s.is_negative else v
+        with mpmath.workdps(digits):
+            try:
+                v = sp.N(e.subs(subs), digits)
+            except (ZeroDivisionError, ValueError):
+                return False
+            if v.has(sp.zoo, sp.nan, sp.oo):
+                continue
+            if not v.is_number or abs(complex(v)) > 1e-30:
+                return False
+    return True
