@@ -2,15 +2,32 @@
 from __future__ import annotations
 
 import argparse
+import sys
+from pathlib import Path
+
+from . import api
+from .errors import ConfigError, TexgenError
 
 
 def register(sub) -> None:
-    """Add the ``build`` and ``check`` subcommands to the parser ``sub``."""
+    """Add the ``build``, ``demo`` and ``check`` subcommands to the parser ``sub``."""
     p = sub.add_parser("build", help="derive curvature and write a report",
-                       description="Derive everything and write a LaTeX, Markdown or JSON report.")
+                       description="Derive everything and write a LaTeX, Markdown or JSON report. "
+                                   "With several files or a folder, OUT is a folder and each entry gets "
+                                   "its own report named by its id.")
     p.add_argument("files", nargs="+", metavar="FILE", help="spacetime files or folders")
-    p.add_argument("-o", "--output", metavar="OUT", help="output file (.tex, .md, .json) or folder")
-    p.set_defaults(run=_not_ready)
+    p.add_argument("-o", "--output", metavar="OUT", required=True,
+                   help="report file (.tex, .md, .json) or, for several inputs, a folder")
+    _report_options(p)
+    p.set_defaults(run=cmd_build)
+
+    p = sub.add_parser("demo", help="build the report of the embedded demo spacetime",
+                       description="Build the LaTeX, Markdown and JSON reports of the embedded demo spacetime "
+                                   "(an invented 'veiled' black hole) and, if pdflatex is installed, the PDF.")
+    p.add_argument("-o", "--output", metavar="DIR", default="texgen-demo", help="folder to write into")
+    p.add_argument("--no-pdf", action="store_true", help="do not run pdflatex")
+    p.add_argument("--force", action="store_true", help="overwrite files texgen did not write")
+    p.set_defaults(run=cmd_demo)
 
     p = sub.add_parser("check", help="decide the claims written in spacetime files",
                        description="Decide every claim; exit 0 if all hold, 1 if any fails, 2 for bad input.")
@@ -18,7 +35,68 @@ def register(sub) -> None:
     p.set_defaults(run=_not_ready)
 
 
-def _not_ready(args: argparse.Namespace) -> int:
-    from .errors import TexgenError
+def _report_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("-f", "--format", choices=("tex", "md", "json"), action="append",
+                   help="report format (default: from the extension of OUT; for a folder: tex); repeatable")
+    p.add_argument("--fragment", action="store_true",
+                   help="LaTeX without preamble, for \\input{} into a paper")
+    p.add_argument("--section-level", choices=("chapter", "section", "subsection"), default="section",
+                   help="heading level of the report's title (default: section)")
+    p.add_argument("--template", metavar="DIR", help="folder with your own templates (run sandboxed)")
+    p.add_argument("--force", action="store_true", help="overwrite files texgen did not write")
+    p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
 
+
+_LEVELS = {"chapter": 0, "section": 1, "subsection": 2}
+
+
+def cmd_build(args: argparse.Namespace) -> int:
+    files = api.spacetime_files(args.files)
+    if not files:
+        raise ConfigError("No spacetime files found in " + ", ".join(args.files))
+    out = Path(args.output)
+    many = len(files) > 1 or any(Path(f).is_dir() for f in args.files) or (out.exists() and out.is_dir())
+    formats = args.format or ([None] if not many else ["tex"])
+    failed = 0
+    for path in files:
+        try:
+            model = api.load_spacetime(path)
+            cv = api.derive(model)
+            for fmt in formats:
+                target = out / f"{model.id}.{fmt}" if many else out
+                if not many and fmt is not None and len(formats) > 1:
+                    target = out.with_suffix("." + fmt)
+                opts = api.BuildOptions(fmt=fmt, standalone=not args.fragment,
+                                        section_level=_LEVELS[args.section_level],
+                                        template_dir=args.template, force=args.force)
+                written = api.build_report(model, target, opts, curvature=cv)
+                if not args.quiet:
+                    print(f"{path}: wrote {written}")
+        except TexgenError as exc:
+            if not many:
+                raise
+            failed += 1
+            print(f"error: {exc.format_message()}", file=sys.stderr)
+    return 2 if failed else 0
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    src = api.library_dir() / api.DEMO_FILE
+    model = api.load_spacetime(src)
+    cv = api.derive(model)
+    out = Path(args.output)
+    for fmt in ("tex", "md", "json"):
+        target = out / f"{model.id}.{fmt}"
+        api.build_report(model, target, api.BuildOptions(fmt=fmt, force=args.force), curvature=cv)
+        print(f"wrote {target}")
+    if not args.no_pdf:
+        try:
+            pdf = api.compile_pdf(out / f"{model.id}.tex")
+            print(f"wrote {pdf}")
+        except TexgenError as exc:
+            print(f"note: no PDF: {exc.format_message()}", file=sys.stderr)
+    return 0
+
+
+def _not_ready(args: argparse.Namespace) -> int:
     raise TexgenError(f"'texgen {args.command}' is not available in this version")

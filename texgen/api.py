@@ -1,11 +1,20 @@
 """The public Python API: what the command line does, callable from Python."""
 from __future__ import annotations
 
+import shutil
+import subprocess
+from dataclasses import dataclass
+from importlib import resources
 from pathlib import Path
+from typing import Callable
 
+from .errors import RenderError
 from .loader import load_file, load_text
 from .model import Spacetime
 from .schema import build_model
+
+DEMO_FILE = "demo/veiled_black_hole.yaml"
+"""The embedded default spacetime (an invented example) that ``texgen demo`` builds."""
 
 
 def load_spacetime(path: str | Path) -> Spacetime:
@@ -36,3 +45,91 @@ def spacetime_files(paths: list[str | Path]) -> list[Path]:
         else:
             out.append(p)
     return out
+
+
+def library_dir() -> Path:
+    """The shipped library of spacetimes: package data when installed, metrics_yaml/ in a checkout."""
+    try:
+        packaged = resources.files("texgen.library")
+        if (packaged / DEMO_FILE).is_file():
+            return Path(str(packaged))
+    except (ModuleNotFoundError, TypeError):
+        pass
+    return Path(__file__).resolve().parent.parent / "metrics_yaml"
+
+
+def derive(spacetime: Spacetime, *, budget=None, progress: Callable | None = None):
+    """A lazy :class:`texgen.derive.Curvature` for ``spacetime``."""
+    from .derive import Curvature
+
+    return Curvature(spacetime, budget=budget, progress=progress)
+
+
+@dataclass(frozen=True)
+class BuildOptions:
+    """How ``build`` writes a report."""
+
+    fmt: str | None = None
+    """``tex``, ``md`` or ``json``; ``None`` takes it from the output's extension."""
+    standalone: bool = True
+    """A complete LaTeX document, or a fragment for ``\\input{}``."""
+    section_level: int = 1
+    template_dir: str | None = None
+    force: bool = False
+
+
+def report_text(spacetime: Spacetime, curvature, fmt: str, options: BuildOptions | None = None) -> str:
+    """The report of ``spacetime`` in format ``fmt`` as text."""
+    from .render import dump_json, render
+    from .report import ReportOptions, build_context, build_results
+
+    options = options or BuildOptions()
+    if fmt == "json":
+        return dump_json(build_results(spacetime, curvature))
+    ctx = build_context(spacetime, curvature, ReportOptions(section_level=options.section_level))
+    ctx["standalone"] = options.standalone
+    template = {"tex": "report.tex.j2", "md": "report.md.j2"}.get(fmt)
+    if template is None:
+        raise RenderError(f"Expected one of: 'tex', 'md', 'json' but received: '{fmt}'")
+    return render(template, ctx, options.template_dir)
+
+
+def build_report(spacetime: Spacetime | str | Path, output: str | Path, options: BuildOptions | None = None,
+                 curvature=None) -> Path:
+    """Derive and write one report; the format comes from ``options.fmt`` or the extension.
+
+    Parameters
+    ----------
+    spacetime:
+        A loaded model, or the path of a spacetime file.
+    output:
+        The report file to write (atomically).
+    options:
+        Format, LaTeX shape, templates, overwrite permission.
+    """
+    from .render import FORMATS, write_atomic
+
+    options = options or BuildOptions()
+    model = spacetime if isinstance(spacetime, Spacetime) else load_spacetime(spacetime)
+    out = Path(output)
+    fmt = options.fmt or FORMATS.get(out.suffix)
+    if fmt is None:
+        raise RenderError(f"Cannot tell the report format from '{out.name}'",
+                          hint="use an extension .tex, .md or .json, or --format")
+    cv = curvature or derive(model)
+    return write_atomic(out, report_text(model, cv, fmt, options), force=options.force)
+
+
+def compile_pdf(tex: str | Path, *, runs: int = 2) -> Path:
+    """Compile a standalone LaTeX report with pdflatex (non-stop); returns the PDF path."""
+    exe = shutil.which("pdflatex")
+    if exe is None:
+        raise RenderError("pdflatex is not installed", hint="install a TeX distribution, e.g. texlive-latex-recommended")
+    tex = Path(tex).resolve()
+    for _ in range(runs):
+        proc = subprocess.run([exe, "-interaction=nonstopmode", "-halt-on-error", "-no-shell-escape", tex.name],
+                              cwd=tex.parent, stdin=subprocess.DEVNULL, capture_output=True, text=True,
+                              errors="replace", timeout=300)
+        if proc.returncode != 0:
+            raise RenderError(f"pdflatex failed on {tex.name}; see {tex.with_suffix('.log')}")
+    return tex.with_suffix(".pdf")

@@ -75,7 +75,7 @@ class TexgenLatexPrinter(LatexPrinter):
         function applied to distinct symbols counts as declared.
     """
 
-    printmethod = "_texgen_latex"
+    printmethod = "_latex"
 
     _default_settings: dict[str, Any] = {
         **LatexPrinter._default_settings,

@@ -1,0 +1,389 @@
+"""The report context: every derived result turned into plain data for the templates.
+
+:func:`build_context` is the only place where sympy objects become strings;
+templates receive only str/number/bool/list/dict (LaTeX already printed), and
+the JSON report is the same data with expressions as texgen-parsable text.
+"""
+from __future__ import annotations
+
+import itertools
+import re
+from dataclasses import dataclass
+from typing import Any, Callable
+
+import sympy as sp
+
+from . import __version__
+from .errors import BudgetExceeded, DerivationError
+from .expressions import expression_to_text
+from .latex import component_symbol, escape_text, estimate_width, to_latex, to_latex_lines
+from .model import Spacetime
+
+MAX_WIDTH = 62
+"""Width (in the printer's width model) of one display line on the standalone page."""
+
+
+@dataclass(frozen=True)
+class ReportOptions:
+    """Choices that change how a report looks, never what it says."""
+
+    max_width: float = MAX_WIDTH
+    section_level: int = 1
+    """1: \\section, 0: \\chapter, 2: \\subsection (fragments for an existing paper)."""
+
+
+def _label(spacetime: Spacetime, name: str) -> str:
+    """Equation labels namespaced by the spacetime id, so two appendices never clash."""
+    ident = re.sub(r"[^A-Za-z0-9\-.]", "-", spacetime.id)
+    return f"texgen:{ident}:{name}"
+
+
+class _Printer:
+    """LaTeX and text for expressions of one spacetime, with its names and notation."""
+
+    def __init__(self, spacetime: Spacetime, options: ReportOptions):
+        self.st = spacetime
+        self.options = options
+        names: dict[Any, str] = {}
+        names.update(spacetime.latex_names())
+        for f in spacetime.functions:
+            names[f.function] = f.latex
+        time = next((c.symbol for c in spacetime.coordinates if c.name in ("t", "tau", "eta")), None)
+        self.settings = {
+            "symbol_names": names,
+            "time_symbol": time,
+            "function_signatures": {f.function: f.arguments for f in spacetime.functions},
+        }
+        self.index = {c.symbol: c.latex for c in spacetime.coordinates}
+        self.coord_latex = [c.latex for c in spacetime.coordinates]
+        self.coord_names = [c.name for c in spacetime.coordinates]
+
+    def tex(self, expr: sp.Expr) -> str:
+        return to_latex(expr, **self.settings)
+
+    def lines(self, expr: sp.Expr, lead: str = "") -> list[str]:
+        """Display lines; the first line has room for the left-hand side ``lead``."""
+        width = self.options.max_width - estimate_width(lead) * 0.6 if lead else self.options.max_width
+        return to_latex_lines(expr, max_width=max(width, 30), **self.settings)
+
+    def symbol(self, kernel: str, positions: str, idx: tuple[int, ...]) -> str:
+        pairs = [("up" if p == "u" else "down", self.coord_latex[i]) for p, i in zip(positions, idx)]
+        return component_symbol(kernel, pairs)
+
+    def key(self, idx: tuple[int, ...]) -> str:
+        return ",".join(self.coord_names[i] for i in idx)
+
+
+def _equation(p: _Printer, lhs: str, expr: sp.Expr, *, text: bool = True, label: str | None = None) -> dict:
+    lines = p.lines(expr, lead=lhs)
+    out = {"lhs": lhs, "lines": lines, "latex": " ".join(lines), "multiline": len(lines) > 1}
+    if label:
+        out["label"] = label
+    if text:
+        out["text"] = expression_to_text(expr)
+    return out
+
+
+def _line_element(p: _Printer, st: Spacetime) -> dict:
+    """ds² written term by term in coordinate order, as a relativist writes it."""
+    g = st.metric_display
+    n = st.dimension
+    d = [sp.Symbol("d" + c.name) for c in st.coordinates]
+    names = dict(p.settings["symbol_names"])
+    for c, s in zip(st.coordinates, d):
+        names[s] = r"\mathrm{d}" + (c.latex if len(c.latex) == 1 or c.latex.startswith("\\") else "{" + c.latex + "}")
+    expr = sp.S.Zero
+    terms = []
+    for i in range(n):
+        for j in range(i, n):
+            if g[i, j] != 0:
+                coeff = g[i, j] if i == j else 2 * g[i, j]
+                terms.append(sp.Mul(coeff, d[i] * d[j], evaluate=False))
+    expr = sp.Add(*terms, evaluate=False) if terms else sp.S.Zero
+    settings = dict(p.settings, symbol_names=names, order="none")
+    lines = to_latex_lines(expr, max_width=p.options.max_width - 4, **settings)
+    return {"lhs": r"\mathrm{d}s^{2}", "lines": lines, "latex": " ".join(lines), "multiline": len(lines) > 1,
+            "label": _label(st, "line-element")}
+
+
+def _components(p: _Printer, items, kernel: str, positions: str, *, text=True) -> list[dict]:
+    out = []
+    for idx, value in items:
+        lhs = p.symbol(kernel, positions, idx)
+        eq = _equation(p, lhs, value, text=text)
+        eq["key"] = p.key(idx)
+        eq["short"] = not eq["multiline"] and estimate_width(eq["latex"]) < 40
+        out.append(eq)
+    return out
+
+
+def _matrix(p: _Printer, m: sp.MatrixBase) -> dict:
+    entries = [[p.tex(m[i, j]) for j in range(m.cols)] for i in range(m.rows)]
+    widest = max((estimate_width(e) for row in entries for e in row), default=0)
+    fits = m.cols <= 5 and (widest + 2) * m.cols < p.options.max_width
+    return {"rows": entries, "fits": fits}
+
+
+def _nonzero_symmetric(m: sp.MatrixBase, is_zero: Callable[[sp.Expr], bool]) -> list:
+    return [((i, j), m[i, j]) for i in range(m.rows) for j in range(i, m.cols) if not is_zero(m[i, j])]
+
+
+_RIEMANN_TEX = (r"R^{a}{}_{bcd} = \partial_{c}\Gamma^{a}{}_{db} - \partial_{d}\Gamma^{a}{}_{cb}"
+                r" + \Gamma^{a}{}_{ce}\Gamma^{e}{}_{db} - \Gamma^{a}{}_{de}\Gamma^{e}{}_{cb}")
+
+
+def _conventions(st: Spacetime, cv) -> dict:
+    """The conventions as the engine records them, plus LaTeX forms for the report."""
+    conv = dict(cv.conventions)
+    c = st.conventions
+    conv["signature_latex"] = "(" + ", ".join(c.signature) + ")"
+    conv["riemann_latex"] = _RIEMANN_TEX if c.riemann_sign > 0 else _RIEMANN_TEX.replace(
+        "= ", r"= -\bigl(", 1) + r"\bigr)"
+    conv["ricci_latex"] = r"R_{bd} = R^{a}{}_{bad}"
+    lhs = ("G_{ab}" if c.riemann_sign > 0 else "-G_{ab}") + (" + " if c.metric_sign > 0 else " - ")
+    kappa = r"8\pi" if c.units != "explicit" else r"\frac{8\pi G}{c^{4}}"
+    conv["field_equations_latex"] = lhs + r"\Lambda g_{ab} = " + kappa + " T_{ab}"
+    conv["units_text"] = ("geometrized units, $G = c = 1$" if c.units != "explicit"
+                          else "explicit units, with Newton's constant $G$ and the speed of light $c$")
+    return conv
+
+
+def _range_tex(p: "_Printer", rng, sym) -> str:
+    """A declared range as a chain, ``0 < \theta < \pi``."""
+    if rng is None:
+        return ""
+    out = ""
+    if rng.lower is not None:
+        out += p.tex(rng.lower) + (" < " if rng.lower_strict else r" \le ")
+    out += p.tex(sym)
+    if rng.upper is not None:
+        out += (" < " if rng.upper_strict else r" \le ") + p.tex(rng.upper)
+    return out
+
+
+def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None = None,
+                  extra_sections: list[dict] | None = None) -> dict:
+    """Plain data for the report templates (and, with ``text`` fields, for JSON).
+
+    Parameters
+    ----------
+    spacetime:
+        The frozen model.
+    curvature:
+        A :class:`texgen.derive.Curvature` for it; stages not yet computed are computed here.
+    options:
+        Presentation choices.
+    extra_sections:
+        Sections later stages add (matter, energy conditions, structure, checks), already plain data.
+    """
+    options = options or ReportOptions()
+    st = spacetime
+    p = _Printer(st, options)
+    cv = curvature
+    n = st.dimension
+    wanted = set(st.derive) if st.derive else None
+    missing: list[dict] = []
+
+    def want(name: str) -> bool:
+        return wanted is None or name in wanted
+
+    def stage(name: str, fn: Callable[[], Any]) -> Any:
+        try:
+            return fn()
+        except BudgetExceeded as exc:
+            missing.append({"stage": name, "reason": exc.message})
+        except DerivationError as exc:
+            missing.append({"stage": name, "reason": exc.message})
+        return None
+
+    ctx: dict[str, Any] = {
+        "texgen_version": __version__,
+        "id": st.id,
+        "title": st.title,
+        "title_tex": escape_text(st.title),
+        "version": st.version,
+        "description": st.description,
+        "description_tex": escape_text(st.description),
+        "notes_tex": escape_text(st.notes) if st.notes else "",
+        "notes": st.notes,
+        "references": list(st.references),
+        "references_tex": [escape_text(r) for r in st.references],
+        "source_name": st.source.rsplit("/", 1)[-1],
+        "sha256": st.sha256,
+        "dimension": n,
+        "label_prefix": _label(st, ""),
+        "section_level": options.section_level,
+        "conventions": _conventions(st, cv),
+        "coordinates": [{"name": c.name, "latex": c.latex,
+                         "range": c.range.text if c.range else "",
+                         "range_tex": _range_tex(p, c.range, c.symbol),
+                         "period_tex": p.tex(c.period) if c.period is not None else ""}
+                        for c in st.coordinates],
+        "parameters": [{"name": q.name, "latex": q.latex, "assumptions": list(q.assumptions),
+                        "range_tex": _range_tex(p, q.range, q.symbol)}
+                       for q in st.parameters],
+        "functions": [{"name": f.name,
+                       "latex": f.latex + "(" + ", ".join(p.index[a] for a in f.arguments) + ")"}
+                      for f in st.functions],
+        "definitions": [_equation(p, d.latex, d.expression) | {"name": d.name} for d in st.definitions],
+        "cosmological_constant_tex": p.tex(st.cosmological_constant) if st.cosmological_constant != 0 else "",
+        "line_element": _line_element(p, st),
+        "missing": missing,
+        "sections": extra_sections or [],
+    }
+
+    is_zero = cv.is_zero
+    ctx["metric"] = _matrix(p, st.metric_display)
+    ctx["metric_components"] = _components(p, _nonzero_symmetric(st.metric_display, lambda e: e == 0), "g", "dd")
+    if want("inverse"):
+        inv = stage("inverse", lambda: cv.inverse)
+        if inv is not None:
+            disp = sp.ImmutableMatrix(inv.rows, inv.cols, [cv.display(e) for e in inv])
+            ctx["inverse"] = _matrix(p, disp)
+            ctx["inverse_components"] = _components(p, _nonzero_symmetric(disp, is_zero), "g", "uu")
+            ctx["determinant"] = _equation(p, r"\det g", cv.display(cv.determinant))
+    if want("christoffel"):
+        items = stage("christoffel", cv.nonzero_christoffel)
+        if items is not None:
+            ctx["christoffel"] = _components(p, [(i, cv.display(v)) for i, v in items], r"\Gamma", "udd")
+    if want("riemann"):
+        items = stage("riemann", cv.independent_riemann)
+        if items is not None:
+            ctx["riemann"] = _components(p, [(i, cv.display(v)) for i, v in items], "R", "dddd")
+    if want("ricci") or want("einstein"):
+        ric = stage("ricci", lambda: cv.ricci)
+        if ric is not None:
+            ctx["ricci"] = _components(p, [(i, cv.display(v)) for i, v in _nonzero_symmetric(ric, is_zero)], "R", "dd")
+            ctx["ricci_scalar"] = _equation(p, "R", cv.display(cv.ricci_scalar))
+    if want("einstein"):
+        ein = stage("einstein", lambda: cv.einstein)
+        if ein is not None:
+            ctx["einstein"] = _components(p, [(i, cv.display(v)) for i, v in _nonzero_symmetric(ein, is_zero)], "G", "dd")
+            mixed = cv.einstein_mixed
+            ctx["einstein_mixed"] = _components(
+                p, [((i, j), cv.display(mixed[i, j])) for i in range(n) for j in range(n)
+                    if not is_zero(mixed[i, j])], "G", "ud")
+    if want("weyl") and n >= 3:
+        if n == 3:
+            ctx["weyl_note"] = "In three dimensions the Weyl tensor vanishes identically."
+            ctx["weyl"] = []
+        else:
+            weyl = stage("weyl", lambda: cv.weyl)
+            if weyl is not None:
+                items = [((a, b, c, d), weyl[a, b, c, d])
+                         for a, b in itertools.combinations(range(n), 2)
+                         for c, d in itertools.combinations(range(n), 2)
+                         if (a, b) <= (c, d) and not is_zero(weyl[a, b, c, d])]
+                ctx["weyl"] = _components(p, [(i, cv.display(v)) for i, v in items], "C", "dddd")
+    if want("invariants"):
+        inv: list[dict] = []
+        k = stage("invariants", lambda: cv.kretschmann)
+        if k is not None:
+            inv.append(_equation(p, r"R_{abcd}R^{abcd}", cv.display(k)) | {"name": "kretschmann",
+                                                                              "title": "Kretschmann scalar"})
+            inv.append(_equation(p, r"R_{ab}R^{ab}", cv.display(cv.ricci_squared)) | {"name": "ricci_squared",
+                                                                                     "title": "Ricci square"})
+            if n >= 4:
+                inv.append(_equation(p, r"C_{abcd}C^{abcd}", cv.display(cv.weyl_squared)) | {
+                    "name": "weyl_squared", "title": "Weyl square"})
+                ident = cv.invariant_identity
+                ctx["identity_holds"] = bool(is_zero(ident))
+        ctx["invariants"] = inv
+    if want("bianchi"):
+        b = stage("bianchi", lambda: cv.bianchi)
+        if b is not None:
+            ctx["bianchi_holds"] = all(is_zero(x) for x in b)
+    if want("geodesics"):
+        geo = stage("geodesics", lambda: cv.geodesic_equations)
+        if geo is not None:
+            # Velocities along the affine parameter are printed with dots.
+            gs = dict(p.settings, time_symbol=getattr(cv, "affine_parameter", None))
+            ctx["geodesics"] = []
+            for eq in geo:
+                lines = to_latex_lines(eq.lhs, max_width=options.max_width - 4, **gs)
+                lines[-1] += " = 0"
+                ctx["geodesics"].append({"latex": " ".join(lines), "lines": lines})
+    return ctx
+
+
+def _texts(items) -> dict[str, str]:
+    return {key: expression_to_text(v) for key, v in items}
+
+
+def build_results(spacetime: Spacetime, curvature, extra: dict | None = None) -> dict:
+    """Machine-readable results: every derived quantity, keyed by coordinate names.
+
+    Expressions are canonical (definitions expanded) and written as text that
+    :func:`texgen.expressions.parse_expression` reads back exactly.
+    """
+    st, cv = spacetime, curvature
+    n = st.dimension
+    names = [c.name for c in st.coordinates]
+
+    def key(idx):
+        return ",".join(names[i] for i in idx)
+
+    is_zero = cv.is_zero
+    out: dict[str, Any] = {
+        "generator": "texgen",
+        "texgen_version": __version__,
+        "format": 1,
+        "spacetime": {
+            "id": st.id, "title": st.title, "version": st.version, "source": st.source.rsplit("/", 1)[-1],
+            "sha256": st.sha256,
+            "coordinates": names,
+            "parameters": {q.name: list(q.assumptions) for q in st.parameters},
+            "functions": {f.name: [str(a) for a in f.arguments] for f in st.functions},
+            "definitions": {d.name: expression_to_text(d.expression) for d in st.definitions},
+        },
+        "conventions": dict(cv.conventions),
+        "metric": _texts((key((i, j)), st.metric[i, j]) for i in range(n) for j in range(i, n)
+                         if st.metric[i, j] != 0),
+    }
+    wanted = set(st.derive) if st.derive else None
+    missing = []
+
+    def put(name: str, fn: Callable[[], Any]) -> None:
+        if wanted is not None and name not in wanted and name not in ("ricci", "inverse"):
+            return
+        try:
+            out.update(fn())
+        except DerivationError as exc:
+            missing.append({"stage": name, "reason": exc.message})
+
+    put("inverse", lambda: {
+        "inverse": _texts((key((i, j)), cv.inverse[i, j]) for i in range(n) for j in range(i, n)
+                          if not is_zero(cv.inverse[i, j])),
+        "determinant": expression_to_text(cv.determinant)})
+    put("christoffel", lambda: {"christoffel": _texts((key(i), v) for i, v in cv.nonzero_christoffel())})
+    put("riemann", lambda: {"riemann_down": _texts((key(i), v) for i, v in cv.independent_riemann())})
+    put("ricci", lambda: {
+        "ricci": _texts((key((i, j)), cv.ricci[i, j]) for i in range(n) for j in range(i, n)
+                        if not is_zero(cv.ricci[i, j])),
+        "ricci_scalar": expression_to_text(cv.ricci_scalar)})
+    put("einstein", lambda: {
+        "einstein": _texts((key((i, j)), cv.einstein[i, j]) for i in range(n) for j in range(i, n)
+                           if not is_zero(cv.einstein[i, j])),
+        "einstein_mixed": _texts((key((i, j)), cv.einstein_mixed[i, j]) for i in range(n) for j in range(n)
+                                 if not is_zero(cv.einstein_mixed[i, j]))})
+    if n >= 4:
+        put("weyl", lambda: {"weyl": _texts(
+            (key((a, b, c, d)), cv.weyl[a, b, c, d])
+            for a, b in itertools.combinations(range(n), 2) for c, d in itertools.combinations(range(n), 2)
+            if (a, b) <= (c, d) and not is_zero(cv.weyl[a, b, c, d]))})
+
+    def invariants():
+        inv = {"kretschmann": expression_to_text(cv.kretschmann),
+               "ricci_squared": expression_to_text(cv.ricci_squared)}
+        checks = {}
+        if n >= 4:
+            inv["weyl_squared"] = expression_to_text(cv.weyl_squared)
+            checks["invariant_identity"] = bool(is_zero(cv.invariant_identity))
+        return {"invariants": inv, "checks": checks}
+
+    put("invariants", invariants)
+    put("bianchi", lambda: {"checks": dict(out.get("checks", {}), bianchi=all(is_zero(x) for x in cv.bianchi))})
+    if extra:
+        out.update(extra)
+    out["missing"] = missing
+    return out
