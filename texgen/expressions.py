@@ -10,8 +10,10 @@ from __future__ import annotations
 import ast
 import difflib
 import io
+import keyword
 import sys
 import tokenize
+import warnings
 from dataclasses import dataclass, field
 from typing import Callable, Mapping
 
@@ -30,6 +32,8 @@ MAX_INT_DIGITS = 60
 """Longest integer literal accepted."""
 MAX_EXPONENT = 64
 """Largest absolute numeric exponent accepted."""
+MAX_NUMBER_BITS = 20_000
+"""Largest exact number a numeric power may produce (about 6000 digits)."""
 
 MATH_FUNCTIONS: dict[str, Callable[..., sp.Expr]] = {
     "sin": sp.sin, "cos": sp.cos, "tan": sp.tan, "sec": sp.sec, "csc": sp.csc, "cot": sp.cot,
@@ -87,6 +91,10 @@ def _prepare(text: str, *, juxtapose: bool = False,
     try:
         toks = list(tokenize.generate_tokens(io.StringIO(line).readline))
     except (tokenize.TokenError, IndentationError, SyntaxError) as exc:
+        problem = _bracket_problem(line)
+        if problem is not None:
+            at, what = problem
+            raise _error(f"{what}: '{line[at:at + 12].strip()}'", text, at, "check the parentheses") from None
         raise _error(f"Expression is not well formed: {exc.args[0]}", text) from None
     out: list[str] = []
     origin: list[int] = []  # original column of every character of the prepared text
@@ -95,6 +103,9 @@ def _prepare(text: str, *, juxtapose: bool = False,
     for tok in toks:
         if tok.type == tokenize.COMMENT:
             raise _error("Comments ('#') are not allowed inside an expression", text, tok.start[1])
+        if tok.type == tokenize.STRING:
+            raise _error(f"Quoted text (strings, f-strings) is not allowed in an expression: '{tok.string[:40]}'",
+                         text, tok.start[1], "write the expression itself, without quotes")
         if tok.type in (tokenize.NEWLINE, tokenize.NL, tokenize.ENDMARKER, tokenize.INDENT, tokenize.DEDENT):
             continue
         if tok.type == tokenize.ERRORTOKEN and not tok.string.strip():
@@ -103,9 +114,13 @@ def _prepare(text: str, *, juxtapose: bool = False,
         gap = line[pos:start]
         string = "**" if tok.type == tokenize.OP and tok.string == "^" else tok.string
         if juxtapose and prev is not None:
-            left_ends = (prev.type == tokenize.NUMBER or prev.string == ")"
-                         or (prev.type == tokenize.NAME and prev.string not in callables))
-            right_starts = tok.type in (tokenize.NAME, tokenize.NUMBER) or tok.string == "("
+            # Python keywords (lambda, for, in, if ...) are never factors: leaving them
+            # alone lets the whitelist name the construct instead of a syntax error.
+            left_ends = (prev.type == tokenize.NUMBER or prev.string in (")", "]", "}")
+                         or (prev.type == tokenize.NAME and prev.string not in callables
+                             and not keyword.iskeyword(prev.string)))
+            right_starts = ((tok.type == tokenize.NAME and not keyword.iskeyword(tok.string))
+                            or tok.type == tokenize.NUMBER or tok.string == "(")
             if left_ends and right_starts:
                 gap = gap + "*"
         piece = gap + string
@@ -115,6 +130,19 @@ def _prepare(text: str, *, juxtapose: bool = False,
         pos = end
         prev = tok
     return "".join(out), origin
+
+
+def _bracket_problem(line: str) -> tuple[int, str] | None:
+    """Column and description of the first unbalanced bracket, if any."""
+    stack: list[int] = []
+    for i, ch in enumerate(line):
+        if ch in "([{":
+            stack.append(i)
+        elif ch in ")]}":
+            if not stack:
+                return i, "A closing bracket has no opening bracket"
+            stack.pop()
+    return (stack[0], "A bracket is never closed") if stack else None
 
 
 class _Builder:
@@ -205,8 +233,12 @@ class _Builder:
             chain.append((cur.op, cur.right))
             cur = cur.left
             self.count += 1
-        first = self.build(cur, depth + 1)
-        parts = [first]
+        if family == "mul" and isinstance(cur, ast.UnaryOp) and isinstance(cur.op, ast.USub):
+            # Python reads -a*b as (-a)*b, and sympy then distributes -(r + theta)
+            # into -r - theta; on paper -a*b is -(a*b), which keeps the grouping.
+            parts = [sp.S.NegativeOne, self.build(cur.operand, depth + 2)]
+        else:
+            parts = [self.build(cur, depth + 1)]
         for op, right_node in reversed(chain):
             right = self.build(right_node, depth + 1)
             if isinstance(op, ast.Sub):
@@ -230,6 +262,13 @@ class _Builder:
                 raise self.fail(node, f"Exponent larger than {MAX_EXPONENT} in absolute value")
             if base == 0 and exponent.is_negative:
                 raise self.fail(node, "Division by zero")
+            if base.is_Rational and exponent.is_Rational:
+                # Nested powers such as ((2^64)^64)^64 each stay within MAX_EXPONENT but
+                # their value doubles in length at every level: refuse before computing it.
+                size = max(abs(base.p).bit_length(), abs(base.q).bit_length())
+                if size * abs(exponent) > MAX_NUMBER_BITS:
+                    raise self.fail(node, f"Numeric power is too large (more than {MAX_NUMBER_BITS} bits)",
+                                    "keep numbers small or use a parameter")
         elif base.is_Number and base != 0 and abs(base) != 1 and not exponent.free_symbols:
             raise self.fail(node, "Numeric powers with non-numeric exponents are not accepted")
         return base ** exponent
@@ -297,7 +336,7 @@ def _describe(node: ast.AST) -> str:
     return names.get(type(node).__name__, type(node).__name__)
 
 
-def _parse_tree(text: str, prepared: str) -> ast.Expression:
+def _parse_tree(text: str, prepared: str, origin: list[int]) -> ast.Expression:
     if not prepared:
         raise _error("Expression is empty", text)
     limit = sys.getrecursionlimit()
@@ -305,17 +344,26 @@ def _parse_tree(text: str, prepared: str) -> ast.Expression:
         # Python builds the tree recursively; a long but flat sum (thousands of
         # terms, within MAX_LENGTH) needs more than the default limit.
         sys.setrecursionlimit(max(limit, 2 * MAX_LENGTH))
-        tree = ast.parse(prepared, mode="eval")
+        with warnings.catch_warnings():
+            # Python warns about text such as "1if" or "\d" while parsing; the tree
+            # is judged by the whitelist below, and a warning must not reach the user.
+            warnings.simplefilter("ignore")
+            tree = ast.parse(prepared, mode="eval")
     except SyntaxError as exc:
         msg = exc.msg or "invalid syntax"
         frag = text
         hint = None
+        col = None
         if exc.offset:
-            frag = prepared[max(0, exc.offset - 1): exc.offset + 10].strip() or prepared
+            # Quote and point at what the user wrote ('^', not the '**' it became).
+            at = min(max(0, exc.offset - 1), len(origin) - 1)
+            col = origin[at] if origin else at
+            line = " ".join(text.splitlines())
+            frag = line[col: col + 12].strip() or text
         if "invalid decimal literal" in msg or "invalid syntax" in msg:
             hint = "multiplication must be written with '*', e.g. 2*M"
         raise _error(f"Expression is not well formed ({msg}) near '{frag}'", text,
-                     exc.offset, hint) from None
+                     col, hint) from None
     except (RecursionError, MemoryError, ValueError):
         raise _error("Expression is nested too deeply or is too large", text[:40]) from None
     finally:
@@ -346,7 +394,7 @@ def parse_expression(text: str | int | float, ns: Namespace, *, juxtapose: bool 
         raise _error(f"Expected an expression but received {type(text).__name__}", str(text)[:40])
     callables = frozenset(MATH_FUNCTIONS) | frozenset(ns.functions) | {"diff"}
     prepared, origin = _prepare(text, juxtapose=juxtapose, callables=callables)
-    tree = _parse_tree(text, prepared)
+    tree = _parse_tree(text, prepared, origin)
     builder = _Builder(text, prepared, origin, ns)
     try:
         result = builder.build(tree.body)
@@ -362,7 +410,7 @@ def parse_relation(text: str, ns: Namespace) -> list[tuple[sp.Expr, str, sp.Expr
     if not isinstance(text, str):
         raise _error(f"Expected a range such as '0 < r' but received {text!r}", str(text))
     prepared, origin = _prepare(text)
-    tree = _parse_tree(text, prepared)
+    tree = _parse_tree(text, prepared, origin)
     node = tree.body
     if not isinstance(node, ast.Compare):
         raise _error(f"Expected a range such as '0 < theta < pi' but received: '{text}'", text)
