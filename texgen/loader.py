@@ -135,8 +135,10 @@ def load_text(text: str | bytes, source: str = "<string>") -> Document:
         decoded = raw.decode("utf-8")
     except UnicodeDecodeError as exc:
         line = raw[: exc.start].count(b"\n") + 1
+        line_start = raw.rfind(b"\n", 0, exc.start) + 1
+        column = len(raw[line_start: exc.start].decode("utf-8", errors="replace")) + 1
         raise ConfigError(f"File is not valid UTF-8 (byte 0x{raw[exc.start]:02x} at offset {exc.start})",
-                          Location(source, line), hint="save the file as UTF-8") from None
+                          Location(source, line, column), hint="save the file as UTF-8") from None
     if decoded.startswith("\ufeff"):
         decoded = decoded[1:]
     try:
