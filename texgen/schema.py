@@ -75,9 +75,13 @@ class _Checker:
         self.errors: list[ConfigError] = []
 
     def error(self, node: Node | None, path: str, message: str, hint: str | None = None,
-              column_offset: int | None = None) -> None:
+              column_offset: int | None = None, at_key: bool = False) -> None:
         line = node.line if node is not None else None
         col = node.column if node is not None else None
+        if at_key and path in self.doc.key_lines:
+            # A problem with a declared name sits at the name, not at its value.
+            line, col = self.doc.key_lines[path]
+            column_offset = None
         if (col is not None and column_offset is not None and isinstance(node.value, str)
                 and node.style in (None, '"', "'") and "\n" not in node.value):
             # Single-line scalars: point at the offending part of the expression.
@@ -189,14 +193,15 @@ class _Builder:
     def claim_name(self, name: str, kind: str, node: Node, path: str) -> bool:
         if not isinstance(name, str) or not _NAME.match(name):
             self.ck.error(node, path, f"Expected a symbol name (letters, digits, '_', starting with a letter) "
-                          f"but received: {_shown(name)}")
+                          f"but received: {_shown(name)}", at_key=True)
             return False
         if name in MATH_FUNCTIONS or name in CONSTANTS or name == "diff":
-            self.ck.error(node, path, f"'{name}' is a built-in function or constant and cannot be a {kind} name")
+            self.ck.error(node, path, f"'{name}' is a built-in function or constant and cannot be a {kind} name",
+                          at_key=True)
             return False
         if name in self.names:
             self.ck.error(node, path, f"'{name}' is already declared as a {self.names[name]}",
-                          "each name may be declared once")
+                          "each name may be declared once", at_key=True)
             return False
         self.names[name] = kind
         return True
@@ -614,7 +619,11 @@ def build_model(doc: Document) -> Spacetime:
     # Definitions: parsed against every definition name, then ordered; cycles are errors.
     definitions = _definitions(b, symbols, fmap)
     def_syms = {d.symbol: d.expanded for d in definitions}
-    ns_full = Namespace({**symbols, **{d.name: d.symbol for d in definitions}}, fmap)
+    # Definitions rejected above (cycles, bad expressions) still count as declared, so
+    # that their uses are not reported a second time as unknown names.
+    rejected = {name: sp.Symbol(name, real=True) for name, kind in b.names.items()
+                if kind == "definition" and name not in {d.name for d in definitions}}
+    ns_full = Namespace({**symbols, **rejected, **{d.name: d.symbol for d in definitions}}, fmap)
 
     lam = sp.S.Zero
     if "cosmological_constant" in b.root:
@@ -891,10 +900,18 @@ def _numerical_checks(b: _Builder, model: Spacetime) -> None:
                 if any(abs(z.imag) > 1e-20 for row in num for z in row):
                     continue
                 m = mpmath.matrix([[z.real for z in row] for row in num])
-                scale = max(abs(x) for x in m) or 1
-                det = mpmath.det(m)
                 tested += 1
-                if abs(det) < mpmath.mpf(10) ** -20 * scale ** g.rows:
+                # Scale symmetrically, m_ij / (s_i s_j) with s_i the root of row i's length:
+                # the number of negative eigenvalues is unchanged (Sylvester's law of
+                # inertia), and components of very different sizes (1 and 10^64) no
+                # longer look singular to mpmath's pivoting. A zero row is degenerate.
+                s = [mpmath.sqrt(mpmath.norm(m[i, :])) for i in range(g.rows)]
+                if any(x == 0 for x in s):
+                    degenerate += 1
+                    continue
+                m = mpmath.matrix([[m[i, j] / (s[i] * s[j]) for j in range(g.cols)] for i in range(g.rows)])
+                bound = mpmath.fprod(mpmath.norm(m[i, :]) for i in range(g.rows))  # Hadamard's bound on |det|
+                if abs(mpmath.det(m)) < mpmath.mpf(10) ** -20 * bound:
                     degenerate += 1
                     continue
                 ev = mpmath.eigsy(m, eigvals_only=True)
