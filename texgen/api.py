@@ -78,15 +78,57 @@ class BuildOptions:
     force: bool = False
 
 
+SECTION_MODULES = ("texgen.analysis", "texgen.claims")
+"""Later stages that add a report section: each has ``report_section`` and ``results``."""
+
+
+def _stage_modules() -> list:
+    import importlib
+
+    mods = []
+    for name in SECTION_MODULES:
+        try:
+            mods.append(importlib.import_module(name))
+        except ModuleNotFoundError as exc:
+            if exc.name != name:
+                raise
+    return mods
+
+
+def extra_sections(spacetime: Spacetime, curvature, printer) -> list[dict]:
+    """Plain-data sections (matter, energy conditions, structure, checks) for the templates.
+
+    Each stage module's ``report_section(spacetime, curvature, printer)`` returns a
+    dict with ``template_tex`` and ``template_md`` (templates under templates/sections/)
+    and its data, or ``None`` when it has nothing to say for this spacetime.
+    """
+    out = []
+    for mod in _stage_modules():
+        section = mod.report_section(spacetime, curvature, printer)
+        if section:
+            out.append(section)
+    return out
+
+
+def extra_results(spacetime: Spacetime, curvature) -> dict:
+    """JSON-ready results of the later stages, keyed by stage (``matter``, ``claims``, ...)."""
+    out: dict = {}
+    for mod in _stage_modules():
+        out.update(mod.results(spacetime, curvature))
+    return out
+
+
 def report_text(spacetime: Spacetime, curvature, fmt: str, options: BuildOptions | None = None) -> str:
     """The report of ``spacetime`` in format ``fmt`` as text."""
     from .render import dump_json, render
-    from .report import ReportOptions, build_context, build_results
+    from .report import ExpressionPrinter, ReportOptions, build_context, build_results
 
     options = options or BuildOptions()
     if fmt == "json":
-        return dump_json(build_results(spacetime, curvature))
-    ctx = build_context(spacetime, curvature, ReportOptions(section_level=options.section_level))
+        return dump_json(build_results(spacetime, curvature, extra_results(spacetime, curvature)))
+    ropts = ReportOptions(section_level=options.section_level)
+    sections = extra_sections(spacetime, curvature, ExpressionPrinter(spacetime, ropts))
+    ctx = build_context(spacetime, curvature, ropts, extra_sections=sections)
     ctx["standalone"] = options.standalone
     template = {"tex": "report.tex.j2", "md": "report.md.j2"}.get(fmt)
     if template is None:

@@ -38,8 +38,12 @@ def _label(spacetime: Spacetime, name: str) -> str:
     return f"texgen:{ident}:{name}"
 
 
-class _Printer:
-    """LaTeX and text for expressions of one spacetime, with its names and notation."""
+class ExpressionPrinter:
+    """LaTeX and text for expressions of one spacetime, with its names and notation.
+
+    Section builders of later stages (matter, claims) use it so that every
+    section of a report prints symbols, derivatives and long lines the same way.
+    """
 
     def __init__(self, spacetime: Spacetime, options: ReportOptions):
         self.st = spacetime
@@ -74,7 +78,8 @@ class _Printer:
         return ",".join(self.coord_names[i] for i in idx)
 
 
-def _equation(p: _Printer, lhs: str, expr: sp.Expr, *, text: bool = True, label: str | None = None) -> dict:
+def equation(p: ExpressionPrinter, lhs: str, expr: sp.Expr, *, text: bool = True, label: str | None = None) -> dict:
+    """Plain data for one displayed equation ``lhs = expr`` (lines already broken)."""
     lines = p.lines(expr, lead=lhs)
     out = {"lhs": lhs, "lines": lines, "latex": " ".join(lines), "multiline": len(lines) > 1}
     if label:
@@ -84,7 +89,7 @@ def _equation(p: _Printer, lhs: str, expr: sp.Expr, *, text: bool = True, label:
     return out
 
 
-def _line_element(p: _Printer, st: Spacetime) -> dict:
+def _line_element(p: ExpressionPrinter, st: Spacetime) -> dict:
     """ds² written term by term in coordinate order, as a relativist writes it."""
     g = st.metric_display
     n = st.dimension
@@ -106,18 +111,18 @@ def _line_element(p: _Printer, st: Spacetime) -> dict:
             "label": _label(st, "line-element")}
 
 
-def _components(p: _Printer, items, kernel: str, positions: str, *, text=True) -> list[dict]:
+def _components(p: ExpressionPrinter, items, kernel: str, positions: str, *, text=True) -> list[dict]:
     out = []
     for idx, value in items:
         lhs = p.symbol(kernel, positions, idx)
-        eq = _equation(p, lhs, value, text=text)
+        eq = equation(p, lhs, value, text=text)
         eq["key"] = p.key(idx)
         eq["short"] = not eq["multiline"] and estimate_width(eq["latex"]) < 40
         out.append(eq)
     return out
 
 
-def _matrix(p: _Printer, m: sp.MatrixBase) -> dict:
+def _matrix(p: ExpressionPrinter, m: sp.MatrixBase) -> dict:
     entries = [[p.tex(m[i, j]) for j in range(m.cols)] for i in range(m.rows)]
     widest = max((estimate_width(e) for row in entries for e in row), default=0)
     fits = m.cols <= 5 and (widest + 2) * m.cols < p.options.max_width
@@ -148,7 +153,7 @@ def _conventions(st: Spacetime, cv) -> dict:
     return conv
 
 
-def _range_tex(p: "_Printer", rng, sym) -> str:
+def _range_tex(p: "ExpressionPrinter", rng, sym) -> str:
     """A declared range as a chain, ``0 < \theta < \pi``."""
     if rng is None:
         return ""
@@ -178,7 +183,7 @@ def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None
     """
     options = options or ReportOptions()
     st = spacetime
-    p = _Printer(st, options)
+    p = ExpressionPrinter(st, options)
     cv = curvature
     n = st.dimension
     wanted = set(st.derive) if st.derive else None
@@ -225,7 +230,7 @@ def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None
         "functions": [{"name": f.name,
                        "latex": f.latex + "(" + ", ".join(p.index[a] for a in f.arguments) + ")"}
                       for f in st.functions],
-        "definitions": [_equation(p, d.latex, d.expression) | {"name": d.name} for d in st.definitions],
+        "definitions": [equation(p, d.latex, d.expression) | {"name": d.name} for d in st.definitions],
         "cosmological_constant_tex": p.tex(st.cosmological_constant) if st.cosmological_constant != 0 else "",
         "line_element": _line_element(p, st),
         "missing": missing,
@@ -241,7 +246,7 @@ def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None
             disp = sp.ImmutableMatrix(inv.rows, inv.cols, [cv.display(e) for e in inv])
             ctx["inverse"] = _matrix(p, disp)
             ctx["inverse_components"] = _components(p, _nonzero_symmetric(disp, is_zero), "g", "uu")
-            ctx["determinant"] = _equation(p, r"\det g", cv.display(cv.determinant))
+            ctx["determinant"] = equation(p, r"\det g", cv.display(cv.determinant))
     if want("christoffel"):
         items = stage("christoffel", cv.nonzero_christoffel)
         if items is not None:
@@ -254,7 +259,7 @@ def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None
         ric = stage("ricci", lambda: cv.ricci)
         if ric is not None:
             ctx["ricci"] = _components(p, [(i, cv.display(v)) for i, v in _nonzero_symmetric(ric, is_zero)], "R", "dd")
-            ctx["ricci_scalar"] = _equation(p, "R", cv.display(cv.ricci_scalar))
+            ctx["ricci_scalar"] = equation(p, "R", cv.display(cv.ricci_scalar))
     if want("einstein"):
         ein = stage("einstein", lambda: cv.einstein)
         if ein is not None:
@@ -279,12 +284,12 @@ def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None
         inv: list[dict] = []
         k = stage("invariants", lambda: cv.kretschmann)
         if k is not None:
-            inv.append(_equation(p, r"R_{abcd}R^{abcd}", cv.display(k)) | {"name": "kretschmann",
+            inv.append(equation(p, r"R_{abcd}R^{abcd}", cv.display(k)) | {"name": "kretschmann",
                                                                               "title": "Kretschmann scalar"})
-            inv.append(_equation(p, r"R_{ab}R^{ab}", cv.display(cv.ricci_squared)) | {"name": "ricci_squared",
+            inv.append(equation(p, r"R_{ab}R^{ab}", cv.display(cv.ricci_squared)) | {"name": "ricci_squared",
                                                                                      "title": "Ricci square"})
             if n >= 4:
-                inv.append(_equation(p, r"C_{abcd}C^{abcd}", cv.display(cv.weyl_squared)) | {
+                inv.append(equation(p, r"C_{abcd}C^{abcd}", cv.display(cv.weyl_squared)) | {
                     "name": "weyl_squared", "title": "Weyl square"})
                 ident = cv.invariant_identity
                 ctx["identity_holds"] = bool(is_zero(ident))
