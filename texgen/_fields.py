@@ -472,14 +472,19 @@ class FieldAlgebra:
 
     # -- setup -------------------------------------------------------------
     def _check_exactness(self) -> None:
-        keys = [g.key for g in self.gens if g.kind in ("sin", "sinh")]
-        for u in keys:
-            if not u.is_Symbol:
-                self.exact = False  # e.g. sin(theta) and sin(theta + phi) are related
-        rests = [r for r in self.exp_of if r != 1]
-        for r in rests:
-            if r.is_Add:
-                self.exact = False
+        """Clear :attr:`exact` where generators may be algebraically related.
+
+        sin/cos of arguments u and v are related when u/v or u - v is a number
+        (sin 2θ, cos(θ + π)); sinh, cosh and exp likewise among themselves.
+        """
+        circular = [g.key for g in self.gens if g.kind == "sin"]
+        hyperbolic = [g.key for g in self.gens if g.kind == "sinh"] + \
+            [g.key[0] * g.key[1] for g in self.gens if g.kind == "exp" and g.key[0] != 1]
+        for keys in (circular, hyperbolic):
+            for i, u in enumerate(keys):
+                for v in keys[i + 1:]:
+                    if sp.cancel(u / v).is_number or sp.expand(u - v).is_number:
+                        self.exact = False
         for g in self.gens:
             if g.kind == "opaque":
                 self.exact = False
@@ -659,9 +664,40 @@ class FieldAlgebra:
                 out.append(self.factor_expr[j] ** e)
         return sp.Mul(*out), unit
 
+    def _pretty(self, p):
+        """Rewrite parts even in cos (cosh) through sin^2 (sinh^2) where that has fewer terms.
+
+        A fixed function of the unique reduced form, so the result stays canonical:
+        (2M - r)(1 - cos^2) prints as 2M sin^2 - r sin^2.
+        """
+        for i in self.square_of:
+            g = self.gens[i]
+            j = self.trig[("cos" if g.kind == "sin" else "cosh", g.key)]
+            sign = -1 if g.kind == "sin" else 1  # cos^2 = 1 - sin^2, cosh^2 = 1 + sinh^2
+            parts: dict[int, dict] = {0: {}, 1: {}}
+            for m, c in self.P.terms(p):
+                parts[m[i]].setdefault(m[j], {})[m] = c
+            out = self.P.zero
+            for e_s, by_c in parts.items():
+                piece = self.P.from_terms({m: _to_rational(c) for d in by_c.values() for m, c in d.items()}) \
+                    if by_c else self.P.zero
+                if by_c and all(e % 2 == 0 for e in by_c) and any(by_c):
+                    alt = self.P.zero
+                    s2 = self.P.gens[i] ** 2
+                    base = self.P.one + sign * s2
+                    for e_c, d in by_c.items():
+                        stripped = {tuple(0 if k == j else v for k, v in enumerate(m)): _to_rational(c)
+                                    for m, c in d.items()}
+                        alt = alt + self.P.from_terms(stripped) * base ** (e_c // 2)
+                    if self.P.nterms(alt) < self.P.nterms(piece):
+                        piece = alt
+                out = out + piece
+            p = out
+        return p
+
     def to_sympy(self, x: Rat) -> sp.Expr:
         """The canonical sympy form: expanded numerator over factored denominator."""
-        num = self.poly_to_sympy(x.num)
+        num = self.poly_to_sympy(self._pretty(x.num) if self.square_of else x.num)
         if not x.den:
             return num
         den, unit = self._den_to_sympy(x.den)
@@ -746,7 +782,7 @@ class FieldAlgebra:
         num = self._den_poly(dict(x.den))
         d = x.num
         for i, _rel in self.relations:
-            if self.P.degrees(d)[i] == 0:
+            if self.P.degrees(d)[i] <= 0:
                 continue
             X = self.P.gens[i]
             b, a = divmod(d, X)  # d = a + b X with a, b free of X (d is reduced)
@@ -814,10 +850,12 @@ class FieldAlgebra:
         return got
 
     def _poly_diff(self, p, k: int) -> Rat:
+        if p == 0:
+            return self.zero
         degs = self.P.degrees(p)
         terms = []
         for j, dg in enumerate(degs):
-            if not dg:
+            if dg <= 0:  # flint reports -1 for the zero polynomial
                 continue
             gd = self.gen_diff[j]
             if gd is None:

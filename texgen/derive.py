@@ -791,10 +791,14 @@ def _invert(A, m):
     """(inverse, determinant) of a small matrix of field elements (Gauss–Jordan)."""
     k = len(m)
     if k == 1:
+        if A.is_zero_fast(m[0][0]):
+            return None, m[0][0]
         return [[A.inv(m[0][0])]], m[0][0]
     if k == 2:
         (a, b), (c, d) = m
         det = A.sum_products([(1, (a, d)), (-1, (b, c))])
+        if A.is_zero_fast(det):
+            return None, det
         idet = A.inv(det)
         return [[A.mul(d, idet), A.mul(-b, idet)], [A.mul(-c, idet), A.mul(a, idet)]], det
     rows = [list(r) + [A.one if i == j else A.zero for j in range(k)] for i, r in enumerate(m)]
