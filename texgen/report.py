@@ -66,9 +66,24 @@ class ExpressionPrinter:
         return to_latex(expr, **self.settings)
 
     def lines(self, expr: sp.Expr, lead: str = "") -> list[str]:
-        """Display lines; the first line has room for the left-hand side ``lead``."""
-        width = self.options.max_width - estimate_width(lead) * 0.6 if lead else self.options.max_width
-        return to_latex_lines(expr, max_width=max(width, 30), **self.settings)
+        """Display lines; the first line has room for the left-hand side ``lead``.
+
+        When a factor is too wide to break (a power of a long sum, a long
+        prefactor), the numerator is expanded so that the lines break at its terms.
+        """
+        width = max(self.options.max_width - (estimate_width(lead) + 2 if lead else 0), 30)
+        lines = to_latex_lines(expr, max_width=width, **self.settings)
+        if max(estimate_width(line) for line in lines) <= width or not isinstance(expr, sp.Expr):
+            return lines
+        num, den = sp.fraction(sp.factor_terms(expr))
+        expanded = sp.expand(num)
+        if not isinstance(expanded, sp.Add):
+            return lines
+        alt = sp.Mul(sp.Pow(den, -1), expanded, evaluate=False) if den != 1 else expanded
+        other = to_latex_lines(alt, max_width=width, **self.settings)
+        if max(estimate_width(x) for x in other) < max(estimate_width(x) for x in lines):
+            return other
+        return lines
 
     def symbol(self, kernel: str, positions: str, idx: tuple[int, ...]) -> str:
         pairs = [("up" if p == "u" else "down", self.coord_latex[i]) for p, i in zip(positions, idx)]
@@ -78,8 +93,50 @@ class ExpressionPrinter:
         return ",".join(self.coord_names[i] for i in idx)
 
 
+def tidy_trig(expr: sp.Expr) -> sp.Expr:
+    """Write (cos x − 1)(cos x + 1) as −sin²x and cos²x − 1 as −sin²x: how people write them."""
+    if not isinstance(expr, sp.Basic) or not expr.has(sp.cos):
+        return expr
+
+    def fix_mul(e: sp.Mul) -> sp.Expr:
+        factors = dict(e.as_powers_dict())
+        for base in list(factors):
+            if not (isinstance(base, sp.Add) and len(base.args) == 2 and sp.S.One in base.args or
+                    isinstance(base, sp.Add) and len(base.args) == 2 and -sp.S.One in base.args):
+                continue
+            other = base - 1 if sp.S.One in base.args else base + 1
+            if not isinstance(other, sp.cos):
+                continue
+            partner = other - 1 if sp.S.One in base.args else other + 1
+            if partner in factors and factors.get(base) == factors[partner]:
+                k = factors.pop(base)
+                factors.pop(partner)
+                factors[sp.sin(other.args[0])] = factors.get(sp.sin(other.args[0]), 0) + 2 * k
+                factors[sp.S.NegativeOne] = factors.get(sp.S.NegativeOne, 0) + k
+        return sp.Mul(*[b**k for b, k in factors.items()])
+
+    def fix_add(e: sp.Add) -> sp.Expr:
+        for c in e.atoms(sp.cos):
+            x = c.args[0]
+            for sign in (1, -1):
+                if sp.expand(e - sign * (c**2 - 1)) == 0:
+                    return -sign * sp.sin(x) ** 2
+        return e
+
+    out = expr.replace(lambda e: isinstance(e, sp.Mul), fix_mul)
+    out = out.replace(lambda e: isinstance(e, sp.Add) and len(e.args) == 2, fix_add)
+    if isinstance(out, sp.Add) and len(out.args) <= 4:
+        fac = sp.factor_terms(out)
+        if fac != out:
+            fac2 = fac.replace(lambda e: isinstance(e, sp.Add) and len(e.args) == 2, fix_add)
+            if sp.count_ops(fac2) < sp.count_ops(out):
+                out = fac2
+    return out
+
+
 def equation(p: ExpressionPrinter, lhs: str, expr: sp.Expr, *, text: bool = True, label: str | None = None) -> dict:
     """Plain data for one displayed equation ``lhs = expr`` (lines already broken)."""
+    expr = tidy_trig(expr)
     lines = p.lines(expr, lead=lhs)
     out = {"lhs": lhs, "lines": lines, "latex": " ".join(lines), "multiline": len(lines) > 1}
     if label:
@@ -154,7 +211,7 @@ def _conventions(st: Spacetime, cv) -> dict:
 
 
 def _range_tex(p: "ExpressionPrinter", rng, sym) -> str:
-    """A declared range as a chain, ``0 < \theta < \pi``."""
+    r"""A declared range as a chain, ``0 < \theta < \pi``."""
     if rng is None:
         return ""
     out = ""
