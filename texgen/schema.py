@@ -15,7 +15,8 @@ import mpmath
 import sympy as sp
 
 from .errors import ConfigError, ConfigErrors, ExpressionError, Location
-from .expressions import CONSTANTS, MATH_FUNCTIONS, Namespace, parse_expression, parse_relation
+from .expressions import (CONSTANTS, MATH_FUNCTIONS, Namespace, expression_to_text, parse_expression,
+                          parse_relation)
 from .loader import Document, Node
 from .model import (Conventions, Coordinate, Definition, FunctionDecl, Parameter, Range, Section,
                     Spacetime)
@@ -163,6 +164,9 @@ def _range_from_links(links, sym: sp.Symbol, text: str) -> Range:
             if lower is not None:
                 raise ExpressionError(f"Two lower bounds for '{sym}': '{text}'")
             lower, lower_strict = bound, strict
+    if lower is not None and upper is not None and lower.is_number and upper.is_number:
+        if lower > upper or (lower == upper and (lower_strict or upper_strict)):
+            raise ExpressionError(f"The range of '{sym}' is empty: '{text}'")
     return Range(lower, lower_strict, upper, upper_strict, text)
 
 
@@ -224,7 +228,7 @@ class _Builder:
         if fmt is not None and fmt.value != FORMAT_VERSION:
             self.ck.error(fmt, "texgen", f"Expected format version {FORMAT_VERSION} but received: {_shown(fmt.value)}")
         out: dict[str, Any] = {}
-        out["id"] = self.string("id", required=True)
+        out["id"] = self.string("id")  # a missing id is reported by keys() above
         if out["id"] and not _ID.match(out["id"]):
             self.ck.error(self.root["id"], "id", f"Expected an id of lower-case letters, digits, '-', '_' or '.' "
                           f"but received: '{out['id']}'")
@@ -489,6 +493,9 @@ class _Builder:
         return None
 
 
+_TERM_HINT = "each term is a coefficient times two differentials, e.g. r^2 dtheta^2 or 2 A dt dphi"
+
+
 def _differential_form(expr: sp.Expr, diffs: dict[sp.Symbol, int]) -> dict[tuple[int, ...], sp.Expr]:
     """Split an expression into coefficients of products of differentials.
 
@@ -514,7 +521,7 @@ def _differential_form(expr: sp.Expr, diffs: dict[sp.Symbol, int]) -> dict[tuple
                 for k2, v2 in f.items():
                     key = tuple(sorted(k1 + k2))
                     if len(key) > 2:
-                        raise ExpressionError("A term has more than two differentials")
+                        raise ExpressionError(f"A term has more than two differentials: '{_shown_expr(expr)}'")
                     new[key] = new.get(key, sp.S.Zero) + v1 * v2
             out = new
         return out
@@ -522,8 +529,14 @@ def _differential_form(expr: sp.Expr, diffs: dict[sp.Symbol, int]) -> dict[tuple
         base = _differential_form(expr.base, diffs)
         return _differential_form(sp.Mul(expr.base, expr.base, evaluate=False), diffs) if expr.exp == 2 else base
     if isinstance(expr, sp.Pow) and expr.exp.is_Integer and expr.exp < 0:
-        raise ExpressionError("A differential may not stand in a denominator")
-    raise ExpressionError(f"A differential may only appear in products and squares, not in '{expr.func.__name__}'")
+        raise ExpressionError(f"A differential may not stand in a denominator: '{_shown_expr(expr)}'")
+    raise ExpressionError(f"A differential may only appear in products and squares, not in "
+                          f"{expr.func.__name__}(...): '{_shown_expr(expr)}'")
+
+
+def _shown_expr(expr: sp.Expr) -> str:
+    """An expression for an error message, written the way a spacetime file writes it."""
+    return expression_to_text(expr).replace("**", "^")
 
 
 def build_model(doc: Document) -> Spacetime:
@@ -561,6 +574,9 @@ def build_model(doc: Document) -> Spacetime:
             ck.error(node, path, exc.message, exc.hint)
             return None
 
+    # Ranges are read twice (placeholders, then real symbols); only the second
+    # reading reports, or each bad range would be reported twice.
+    n_errors_first_pass = len(ck.errors)
     pre_param_ranges = {}
     for name, item, words, rng, latex, value in params_raw:
         pre_param_ranges[name] = read_range(rng, f"parameters.{name}.range", name, ns_plain) if rng else None
@@ -569,7 +585,6 @@ def build_model(doc: Document) -> Spacetime:
         r = opts.get("range") if isinstance(opts, dict) else None
         pre_coord_ranges[name] = read_range(r, f"coordinates[{[c[0] for c in coords_raw].index(name)}].range",
                                             name, ns_plain) if r else None
-    n_errors_first_pass = len(ck.errors)
 
     # Real symbols with their assumptions.
     symbols: dict[str, sp.Symbol] = {}
@@ -804,14 +819,15 @@ def _metric(b: _Builder, coordinates: list[Coordinate], ns: Namespace) -> sp.Imm
         try:
             form_ = _differential_form(expr, index)
         except ExpressionError as exc:
-            ck.error(sub, "metric.line_element", exc.message)
+            ck.error(sub, "metric.line_element", exc.message, _TERM_HINT)
             return None
         bad = [k for k, v in form_.items() if len(k) != 2 and v != 0]
         if bad:
             k = bad[0]
             term = form_[k] * sp.Mul(*[sp.Symbol("d" + names[i]) for i in k])
             ck.error(sub, "metric.line_element",
-                     f"Every term must be a product of two differentials; this one has {len(k)}: '{term}'")
+                     f"Every term must be a product of two differentials; this one has {len(k)}: "
+                     f"'{_shown_expr(term)}'", _TERM_HINT)
             return None
         for (i, j), v in form_.items():
             if i == j:
