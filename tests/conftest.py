@@ -1,0 +1,73 @@
+"""Shared fixtures for the spacetime-file tests: sample files and the bad-input catalogue."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+BAD_INPUTS = Path(__file__).parent / "bad_inputs"
+"""The catalogue of bad spacetime files; expected.yaml says what each must report."""
+
+KERR = """\
+texgen: 1
+id: kerr-test
+title: Kerr black hole (Boyer-Lindquist coordinates)
+version: "1.1.0"
+references:
+  - text: "R. P. Kerr, Phys. Rev. Lett. 11, 237 (1963)"
+    doi: 10.1103/PhysRevLett.11.237
+  - "R. H. Boyer and R. W. Lindquist, J. Math. Phys. 8, 265 (1967)"
+changelog:
+  1.0.0: First entry.
+  1.1.0: Spin range.
+coordinates:
+  - t
+  - {name: r, range: "r > 0"}
+  - {name: theta, range: "0 < theta < pi"}
+  - {name: phi, period: 2*pi}
+parameters:
+  M: positive
+  a: {range: "0 <= a < M", value: 0.6}
+definitions:
+  Sigma: r^2 + a^2*cos(theta)^2
+  Delta: r^2 - 2*M*r + a^2
+metric:
+  line_element: >
+    -(1 - 2*M*r/Sigma) dt^2 - 4*M*a*r*sin(theta)^2/Sigma dt dphi
+    + Sigma/Delta dr^2 + Sigma dtheta^2
+    + (r^2 + a^2 + 2*M*r*a^2*sin(theta)^2/Sigma) sin(theta)^2 dphi^2
+conventions:
+  signature: "-+++"
+  riemann_sign: -1
+derive: [christoffel, ricci]
+"""
+"""The Kerr metric in Boyer-Lindquist form as in Misner, Thorne & Wheeler, Gravitation (1973), eq. (33.2)."""
+
+SPHERE = """\
+id: two-sphere
+coordinates:
+  - {name: theta, range: "0 < theta < pi"}
+  - {name: phi, period: 2*pi}
+parameters:
+  R: positive
+metric:
+  line_element: R^2 (dtheta^2 + sin(theta)^2 dphi^2)
+conventions:
+  signature: "++"
+"""
+"""The round 2-sphere of radius R, a Riemannian metric (common practice)."""
+
+
+@pytest.fixture
+def write(tmp_path):
+    """Write text (or bytes) to a file in tmp_path and return its path."""
+
+    def _write(text: str | bytes, name: str = "spacetime.yaml") -> Path:
+        path = tmp_path / name
+        if isinstance(text, bytes):
+            path.write_bytes(text)
+        else:
+            path.write_text(text, encoding="utf-8")
+        return path
+
+    return _write
