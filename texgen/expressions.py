@@ -103,6 +103,10 @@ def _prepare(text: str, *, juxtapose: bool = False,
     for tok in toks:
         if tok.type == tokenize.COMMENT:
             raise _error("Comments ('#') are not allowed inside an expression", text, tok.start[1])
+        if tok.type == tokenize.NAME and tok.string.startswith("_"):
+            # Checked here, before anything else, so that __import__('os') is named as such.
+            raise _error(f"Names starting with '_' are not allowed: '{tok.string}'", text, tok.start[1],
+                         "only declared names and the listed functions are accepted")
         if tok.type == tokenize.STRING:
             raise _error(f"Quoted text (strings, f-strings) is not allowed in an expression: '{tok.string[:40]}'",
                          text, tok.start[1], "write the expression itself, without quotes")
