@@ -49,12 +49,9 @@ def spacetime_files(paths: list[str | Path]) -> list[Path]:
 
 def library_dir() -> Path:
     """The shipped library of spacetimes: package data when installed, metrics_yaml/ in a checkout."""
-    try:
-        packaged = resources.files("texgen.library")
-        if (packaged / DEMO_FILE).is_file():
-            return Path(str(packaged))
-    except (ModuleNotFoundError, TypeError):
-        pass
+    packaged = Path(str(resources.files("texgen"))) / "library"
+    if (packaged / DEMO_FILE).is_file():
+        return packaged
     return Path(__file__).resolve().parent.parent / "metrics_yaml"
 
 
