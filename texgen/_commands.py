@@ -32,7 +32,9 @@ def register(sub) -> None:
     p = sub.add_parser("check", help="decide the claims written in spacetime files",
                        description="Decide every claim; exit 0 if all hold, 1 if any fails, 2 for bad input.")
     p.add_argument("files", nargs="+", metavar="FILE", help="spacetime files or folders")
-    p.set_defaults(run=_not_ready)
+    p.add_argument("--json", metavar="OUT", help="also write the verdicts as JSON (for CI)")
+    p.add_argument("-q", "--quiet", action="store_true", help="print only failing claims and errors")
+    p.set_defaults(run=cmd_check)
 
 
 def _report_options(p: argparse.ArgumentParser) -> None:
@@ -45,6 +47,7 @@ def _report_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--template", metavar="DIR", help="folder with your own templates (run sandboxed)")
     p.add_argument("--force", action="store_true", help="overwrite files texgen did not write")
     p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
+    p.add_argument("--strict", action="store_true", help="exit 1 (after writing) when a claim fails")
 
 
 _LEVELS = {"chapter": 0, "section": 1, "subsection": 2}
@@ -57,7 +60,7 @@ def cmd_build(args: argparse.Namespace) -> int:
     out = Path(args.output)
     many = len(files) > 1 or any(Path(f).is_dir() for f in args.files) or (out.exists() and out.is_dir())
     formats = args.format or ([None] if not many else ["tex"])
-    failed = 0
+    failed = claims_failed = 0
     for path in files:
         try:
             model = api.load_spacetime(path)
@@ -72,12 +75,102 @@ def cmd_build(args: argparse.Namespace) -> int:
                 written = api.build_report(model, target, opts, curvature=cv)
                 if not args.quiet:
                     print(f"{path}: wrote {written}")
+            claims_failed += _warn_failed_claims(path, model, cv)
         except TexgenError as exc:
             if not many:
                 raise
             failed += 1
             print(f"error: {exc.format_message()}", file=sys.stderr)
-    return 2 if failed else 0
+    return 2 if failed else 1 if claims_failed and getattr(args, "strict", False) else 0
+
+
+def _warn_failed_claims(path, model, cv) -> int:
+    """Warn on stderr about claims that do not hold; the report has been written regardless."""
+    from . import claims
+
+    bad = [r.claim.label for r in claims.decide_claims(model, cv) if not r.holds]
+    src = claims.check_source(model, cv)
+    if src is not None and not src.holds:
+        bad.append(f"source ({src.type})")
+    if bad:
+        print(f"warning: {path}: {len(bad)} claim(s) do not hold: {', '.join(bad)}", file=sys.stderr)
+    return len(bad)
+
+
+def _check_rows(path, model, cv) -> tuple[list[tuple[str, str, str, str, str]], bool]:
+    from . import claims
+
+    rows = []
+    ok = True
+    for r in claims.decide_claims(model, cv):
+        detail = r.message
+        if r.witness is not None:
+            point = ", ".join(f"{k} = {v}" for k, v in r.witness.point)
+            detail = f"claimed {r.witness.claimed}, derived {r.witness.derived} at {point}"
+        elif r.status == "fails" and r.difference is not None:
+            from .expressions import expression_to_text
+
+            detail = "claimed - derived = " + expression_to_text(r.difference)
+        rows.append((str(path), r.claim.label, r.status, r.method, detail))
+        ok = ok and r.holds
+    src = claims.check_source(model, cv)
+    if src is not None:
+        detail = ""
+        if not src.holds:
+            names = [c.name for c in model.coordinates]
+            from .expressions import expression_to_text
+
+            detail = "; ".join(f"E[{names[a]},{names[b]}] = {expression_to_text(v)}" for (a, b), v in src.residual)
+            detail += "".join(f"; {nm}[{','.join(names[i] for i in k)}] = {expression_to_text(v)}"
+                              for nm, k, v in src.extra)
+        rows.append((str(path), f"source ({src.type})", src.status, src.method, detail.strip("; ")))
+        ok = ok and src.holds
+    return rows, ok
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from . import claims
+    from .render import dump_json, write_atomic
+
+    files = api.spacetime_files(args.files)
+    if not files:
+        raise ConfigError("No spacetime files found in " + ", ".join(args.files))
+    rows: list[tuple[str, str, str, str, str]] = []
+    report: list[dict] = []
+    bad_input = failed = False
+    for path in files:
+        entry: dict = {"file": str(path)}
+        try:
+            model = api.load_spacetime(path)
+            cv = api.derive(model)
+            file_rows, ok = _check_rows(path, model, cv)
+            entry.update({"id": model.id, "holds": ok})
+            entry.update(claims.results(model, cv))
+        except TexgenError as exc:
+            print(f"error: {exc.format_message()}", file=sys.stderr)
+            bad_input = True
+            entry["error"] = exc.format_message()
+            report.append(entry)
+            continue
+        failed = failed or not ok
+        rows.extend(r for r in file_rows if not args.quiet or r[2] not in ("proved", "agrees_numerically"))
+        if not file_rows and not args.quiet:
+            rows.append((str(path), "-", "no claims", "", ""))
+        report.append(entry)
+    if rows:
+        head = ("FILE", "CLAIM", "VERDICT", "HOW")
+        widths = [max(len(r[i]) for r in rows + [head]) for i in range(3)]
+        fmt = "  ".join(f"{{:<{w}}}" for w in widths) + "  {}"
+        print(fmt.format(*head))
+        for r in rows:
+            print(fmt.format(*r[:4]).rstrip())
+            if r[4] and r[2] not in ("proved", "agrees_numerically"):
+                print(" " * (widths[0] + 2) + "  " + r[4])
+    code = 2 if bad_input else 1 if failed else 0
+    if args.json:
+        data = {"generator": "texgen", "command": "check", "exit_code": code, "files": report}
+        write_atomic(args.json, dump_json(data))
+    return code
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
