@@ -18,7 +18,7 @@ from __future__ import annotations
 import random
 from dataclasses import dataclass, field
 from fractions import Fraction
-from typing import Any, Callable, Iterable, Sequence
+from typing import Any, Iterable, Sequence
 
 import mpmath
 import sympy as sp
@@ -481,6 +481,8 @@ class FieldAlgebra:
         hyperbolic = [g.key for g in self.gens if g.kind == "sinh"] + \
             [g.key[0] * g.key[1] for g in self.gens if g.kind == "exp" and g.key[0] != 1]
         for keys in (circular, hyperbolic):
+            if any(u.is_Add for u in keys):
+                self.exact = False  # sin(θ + φ) next to sin θ, sin φ: the addition theorems
             for i, u in enumerate(keys):
                 for v in keys[i + 1:]:
                     if sp.cancel(u / v).is_number or sp.expand(u - v).is_number:

@@ -534,7 +534,6 @@ class Curvature:
 
     def _full4(self, table: dict) -> sp.ImmutableDenseNDimArray:
         n = self.dimension
-        A = self.algebra
         sym = {k: self._sym(v) for k, v in table.items()}
         flat = []
         for a in range(n):
