@@ -1,0 +1,128 @@
+"""Benchmark of the curvature engine against the naive baseline, measured in the same run.
+
+Run by hand (not part of the test suite):
+
+    python bench/bench_engine.py [--cap SECONDS] [--skip-baseline]
+
+For Schwarzschild and Kerr-Newman (Boyer-Lindquist) it computes everything
+``texgen.derive.derive`` offers, pinned to one core, and prints per-stage wall and CPU
+seconds, the peak memory (tracemalloc peak of a second, traced run, and the process's
+maximum resident set), then runs ``bench/baseline_naive.py`` in a subprocess stopped
+at the cap and prints the ratios.  A baseline stopped at the cap is reported as
+``> cap`` and its ratio is then a lower bound.
+
+Targets: Kerr-Newman >= 50x faster than the baseline and under 15 s on one core;
+Schwarzschild under 1 s after import.
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import resource
+import subprocess
+import sys
+import time
+import tracemalloc
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE.parent))
+sys.path.insert(0, str(HERE))
+
+import_start = time.perf_counter()
+from texgen import _fields  # noqa: E402
+from texgen.derive import derive  # noqa: E402
+from texgen.model import spacetime_from_matrix  # noqa: E402
+
+import baseline_naive  # noqa: E402
+
+IMPORT_SECONDS = time.perf_counter() - import_start
+
+
+def engine_run(name: str, backend: str = "auto"):
+    coords, g, params = baseline_naive.METRICS[name]()
+    st = spacetime_from_matrix(coords, g, parameters=params)
+    w0, c0 = time.perf_counter(), time.process_time()
+    cv = derive(st, backend=backend)
+    return cv, time.perf_counter() - w0, time.process_time() - c0
+
+
+def traced_peak(name: str) -> float:
+    tracemalloc.start()
+    engine_run(name)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    return peak / 2**20
+
+
+def baseline(name: str, cap: float):
+    """(total wall or None if capped, {stage: (wall, cpu)}) of the naive baseline."""
+    cmd = [sys.executable, str(HERE / "baseline_naive.py"), name]
+    stages: dict[str, tuple[float, float]] = {}
+    total = None
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, text=True)
+    start = time.perf_counter()
+    try:
+        out, _ = proc.communicate(timeout=cap)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        out, _ = proc.communicate()
+    for line in out.splitlines():
+        parts = line.split()
+        if parts and parts[0] == "STAGE":
+            stages[parts[1]] = (float(parts[2]), float(parts[3]))
+        elif parts and parts[0] == "DONE":
+            total = float(parts[1])
+    if total is None and proc.returncode not in (0, None, -9):
+        raise RuntimeError(f"baseline failed with exit code {proc.returncode}")
+    _ = time.perf_counter() - start
+    return total, stages
+
+
+def show_stages(cv) -> None:
+    print(f"    {'stage':22s} {'wall s':>9s} {'cpu s':>9s}")
+    for stage, wall in sorted(cv.timings.items(), key=lambda kv: -kv[1]):
+        print(f"    {stage:22s} {wall:9.4f} {cv.cpu_timings[stage]:9.4f}")
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--cap", type=float, default=600.0, help="time cap for each baseline run (s)")
+    ap.add_argument("--skip-baseline", action="store_true")
+    args = ap.parse_args(argv)
+    if hasattr(os, "sched_setaffinity"):
+        os.sched_setaffinity(0, {sorted(os.sched_getaffinity(0))[0]})  # one core
+    print(f"python {sys.version.split()[0]}, backends {_fields.available_backends()}, "
+          f"import texgen.derive {IMPORT_SECONDS:.2f} s, one core")
+    results = {}
+    for name in ("schwarzschild", "kerr_newman"):
+        engine_run(name)  # warm caches of sympy itself (printing, assumptions) once
+        for backend in _fields.available_backends():
+            cv, wall, cpu = engine_run(name, backend)
+            print(f"\n{name} [{backend}]: engine total {wall:.3f} s wall, {cpu:.3f} s cpu")
+            show_stages(cv)
+            results.setdefault(name, (wall, cpu))
+        peak = traced_peak(name)
+        print(f"  tracemalloc peak {peak:.1f} MiB")
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"\nprocess max RSS {rss:.1f} MiB")
+    if args.skip_baseline:
+        return 0
+    print(f"\nnaive baseline (simplify per component), cap {args.cap:g} s each")
+    for name in ("schwarzschild", "kerr_newman"):
+        total, stages = baseline(name, args.cap)
+        wall, cpu = results[name]
+        last = max(stages, key=lambda s: 0) if stages else "none"
+        finished = ", ".join(f"{k} {v[0]:.1f}s" for k, v in stages.items())
+        if total is None:
+            print(f"  {name}: > {args.cap:g} s (stopped; finished stages: {finished or last})")
+            print(f"  {name}: speed-up >= {args.cap / wall:.0f}x (lower bound; engine {wall:.3f} s)")
+        else:
+            bcpu = sum(v[1] for v in stages.values())
+            print(f"  {name}: baseline {total:.2f} s wall, {bcpu:.2f} s cpu; engine {wall:.3f} s wall")
+            print(f"  {name}: speed-up {total / wall:.0f}x wall, {bcpu / cpu:.0f}x cpu")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
