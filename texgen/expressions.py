@@ -229,6 +229,11 @@ class _Builder:
         family = _FAMILY.get(type(node.op))
         if family is None:
             raise self.fail(node, f"Operator not allowed ({type(node.op).__name__})", "use + - * / ^ only")
+        parts = self._chain(node, family, depth)
+        return sp.Add(*parts) if family == "add" else sp.Mul(*parts)
+
+    def _chain(self, node: ast.BinOp, family: str, depth: int) -> list[sp.Expr]:
+        """The terms of a sum or the factors of a product, not yet combined."""
         # Walk the left spine of a chain such as a + b - c + ... iteratively: long sums
         # are legitimate and must not count as deep nesting or recurse in Python.
         chain: list[tuple[ast.operator, ast.AST]] = []
@@ -244,16 +249,20 @@ class _Builder:
         else:
             parts = [self.build(cur, depth + 1)]
         for op, right_node in reversed(chain):
-            right = self.build(right_node, depth + 1)
-            if isinstance(op, ast.Sub):
-                parts.append(-right)
-            elif isinstance(op, ast.Div):
-                if right == 0:
+            if isinstance(op, ast.Div):
+                # a/(2*(t + r)) is a * 1/2 * 1/(t + r): dividing by each factor keeps the
+                # grouping that 2*(t + r) on its own would lose to distribution.
+                if (isinstance(right_node, ast.BinOp) and _FAMILY.get(type(right_node.op)) == "mul"):
+                    factors = self._chain(right_node, "mul", depth + 1)
+                else:
+                    factors = [self.build(right_node, depth + 1)]
+                if any(f == 0 for f in factors):
                     raise self.fail(node, "Division by zero")
-                parts.append(1 / right)
-            else:
-                parts.append(right)
-        return sp.Add(*parts) if family == "add" else sp.Mul(*parts)
+                parts.extend(1 / f for f in factors)
+                continue
+            right = self.build(right_node, depth + 1)
+            parts.append(-right if isinstance(op, ast.Sub) else right)
+        return parts
 
     def _power(self, node: ast.BinOp, depth: int) -> sp.Expr:
         if any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow) for n in ast.walk(node.right)):
