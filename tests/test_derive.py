@@ -359,6 +359,8 @@ def test_display_uses_definitions():
     assert cv.display(cv.inverse[1, 1]) == dlt_s / sig_s
     assert cv.display(cv.metric[2, 2]) == sig_s
     assert cv.display(sig_s**2 / dlt_s) == sig_s**2 / dlt_s
+    assert cv.display(cv.determinant) == -sig_s**2 * s**2
+    assert cv.display(cv.christoffel[1, 2, 2]) == -dlt_s * r / sig_s
     assert cv.canonical(sig_s) == r**2 + a**2 * c**2
 
 

@@ -764,21 +764,18 @@ class Curvature:
             idx, unit = A._factor_id(fs[0][0])
             names.setdefault(idx, d.symbol / (const * unit))
         den, unit = A._den_to_sympy(x.den, names)
-        num = A.poly_to_sympy(x.num)
+        num = A.poly_to_sympy(A._pretty(x.num) if A.square_of else x.num)
         candidates = [canon, num * unit / den]
         if A.P.nterms(x.num) <= 400:
+            # factored numerator: the same printing as denominators (definitions, sin^2)
             const, fs = A.P.factor(x.num)
-            parts = [const * unit]
+            exps: dict[int, int] = {}
             for f, e in fs:
-                try:
-                    idx, u = A._factor_id(f)
-                except Exception:  # pragma: no cover - defensive
-                    idx = None
-                if idx is not None and idx in names:
-                    parts.append((u * names[idx]) ** e)
-                else:
-                    parts.append(A.poly_to_sympy(f) ** e)
-            candidates.append(sp.Mul(*parts) / den)
+                idx, u = A._factor_id(f)
+                exps[idx] = exps.get(idx, 0) + e
+                const *= u ** e
+            num_f, unit_n = A._den_to_sympy(tuple(sorted(exps.items())), names)
+            candidates.append(const / unit_n * unit * num_f / den)
         best = canon
         for c in candidates[1:]:
             if sp.count_ops(c) < sp.count_ops(best):
