@@ -37,7 +37,12 @@ def _summary(model) -> str:
 
 def cmd_validate(args: argparse.Namespace) -> int:
     failed = False
-    for path in api.spacetime_files(args.files):
+    files = api.spacetime_files(args.files)
+    if not files:
+        # A folder without spacetime files must not pass as "all valid".
+        print("error: no spacetime files (.yaml, .yml) found in " + ", ".join(args.files), file=sys.stderr)
+        return EXIT_INPUT
+    for path in files:
         try:
             model = api.load_spacetime(path)
         except ConfigError as exc:
