@@ -141,7 +141,6 @@ class Gen:
     key: Any = None  # argument of a trig pair, or radicand of a sqrt
     derivs: dict = field(default_factory=dict)  # coordinate index -> sympy expr (missing: 0)
     algebraic: bool = False
-    exact: bool = True
 
 
 _TRIG_REWRITE = {
@@ -981,7 +980,10 @@ def numeric_zero(expr: sp.Expr, symbols: Sequence[sp.Symbol], *, points: int = 3
         if isinstance(d.expr, AppliedUndef):
             funcs[d.expr.func] = d.expr.args
     free = sorted(expr.free_symbols | set(symbols), key=str)
-    for _ in range(points):
+    tried = 0
+    for _ in range(4 * points):
+        if tried == points:
+            break
         e = expr
         for f, args in funcs.items():
             poly = sum(sp.Rational(rng.randint(1, 9), rng.randint(1, 9)) * sp.Mul(*args) ** k
@@ -996,9 +998,10 @@ def numeric_zero(expr: sp.Expr, symbols: Sequence[sp.Symbol], *, points: int = 3
             try:
                 v = sp.N(e.subs(subs), digits)
             except (ZeroDivisionError, ValueError):
-                return False
-            if v.has(sp.zoo, sp.nan, sp.oo):
                 continue
+            if v.has(sp.zoo, sp.nan, sp.oo, -sp.oo):
+                continue  # a singular point proves nothing: draw another
             if not v.is_number or abs(complex(v)) > 1e-30:
                 return False
-    return True
+            tried += 1
+    return tried == points

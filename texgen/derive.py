@@ -119,6 +119,9 @@ class Curvature:
             raise DerivationError(f"{frame[0]}: {exc}") from None
         except ZeroDivisionError:
             raise DerivationError(f"{frame[0]}: division by zero (is the metric degenerate?)") from None
+        except (TypeError, ValueError, AttributeError, NotImplementedError, sp.PolynomialError) as exc:
+            # sympy's own complaints about exotic input: report them as texgen errors
+            raise DerivationError(f"{frame[0]}: cannot compute: {exc}") from exc
         finally:
             self._stack.pop()
             wall = time.perf_counter() - frame[1]
