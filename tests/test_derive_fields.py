@@ -152,3 +152,12 @@ def test_correct_without_python_flint():
                          text=True, timeout=300)
     assert out.stderr == ""
     assert out.stdout == "ok\n"
+
+
+def test_generator_depth_follows_the_shortest_chain():
+    # f' is in the input itself, so f'''' is only three steps away and keeps its derivative
+    f = sp.Function("f")
+    F = _fields.make_algebra(COORDS, [f(r) + sp.diff(f(r), r)])
+    depth = {str(g.expr): (g.depth, g.derivs is None) for g in F.gens}
+    assert depth["Derivative(f(r), (r, 4))"] == (3, False)
+    assert depth["Derivative(f(r), (r, 5))"] == (4, True)

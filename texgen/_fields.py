@@ -186,8 +186,11 @@ class _Discovery:
     def add(self, expr: sp.Expr, kind: str, depth: int, key=None) -> None:
         if expr in self.gens:
             g = self.gens[expr]
-            if depth < g.depth:
+            if depth < g.depth:  # reached by a shorter chain: derive again from here
                 g.depth = depth
+                g.derivs = {}
+                if kind not in ("symbol", "const", "imag"):
+                    self.pending.append(g)
             return
         g = Gen(expr, kind, depth, key)
         self.gens[expr] = g
