@@ -443,3 +443,16 @@ def test_results_are_immutable_and_hashable():
         hash(value)
     assert isinstance(cv.christoffel, sp.ImmutableDenseNDimArray)
     assert isinstance(cv.einstein, sp.ImmutableMatrix)
+
+
+def test_progress_counts_reach_their_totals():
+    calls = []
+    cv = Curvature(schwarzschild(), progress=lambda *args: calls.append(args))
+    cv.field_tensor
+    last = {}
+    for stage, done, total in calls:
+        last[stage] = (done, total)
+    assert last["einstein"] == (10, 10)
+    assert last["field_tensor"] == (10, 10)
+    assert last["riemann_down"] == (21, 21)
+    assert last["ricci"] == (10, 10)

@@ -392,7 +392,7 @@ class Curvature:
             for b in range(a, n):
                 v = A.sum_products([(1, (ric[a][b],)), (half, (R, g[a][b]))])
                 out[a][b] = out[b][a] = v
-                self._tick(f"G_{a}{b}", v, a * n + b + 1, n * n)
+                self._tick(f"G_{a}{b}", v, _upper_index(a, b, n), n * (n + 1) // 2)
         return out
 
     def _compute_einstein_mixed(self):
@@ -411,6 +411,7 @@ class Curvature:
             for b in range(a, n):
                 v = A.sum_products([(self._sign_r, (G[a][b],)), (self._sign_g, (lam, g[a][b]))])
                 out[a][b] = out[b][a] = v
+                self._tick(f"T_{a}{b}", v, _upper_index(a, b, n), n * (n + 1) // 2)
         return out
 
     def _compute_weyl(self):
@@ -832,6 +833,11 @@ def _antisym(table: dict, A, a: int, b: int, c: int, d: int):
     key = (a, b, c, d) if (a, b) <= (c, d) else (c, d, a, b)
     v = table[key]
     return v if sign > 0 else -v
+
+
+def _upper_index(a: int, b: int, n: int) -> int:
+    """1-based position of (a, b), a <= b, in row-major order of the upper triangle."""
+    return a * n - a * (a - 1) // 2 + (b - a) + 1
 
 
 def _raise_first(A, inv, low, n):
