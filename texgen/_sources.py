@@ -173,6 +173,14 @@ def apply_substitution(expr: sp.Expr, target: sp.Basic, value: sp.Expr) -> sp.Ex
     """``expr`` with ``target`` replaced; a function is replaced everywhere, derivatives included."""
     if isinstance(target, sp.core.function.AppliedUndef) and all(isinstance(a, sp.Symbol) for a in target.args):
         return expr.replace(target.func, sp.Lambda(target.args, value)).doit()
+    if isinstance(target, sp.exp):
+        # exp(u) = value also fixes exp(k u) for every integer k.
+        u0 = target.args[0]
+
+        def power(e):
+            k = sp.cancel(e.args[0] / u0)
+            return value**int(k) if k.is_Integer else e
+        return expr.replace(lambda e: isinstance(e, sp.exp), power)
     if isinstance(target, sp.Pow):
         d, k = target.base, int(target.exp)
         # Reduce every power d^m (m >= k) modulo d^k = value.
@@ -181,3 +189,61 @@ def apply_substitution(expr: sp.Expr, target: sp.Basic, value: sp.Expr) -> sp.Ex
             return value**q * d**r
         return expr.replace(lambda e: isinstance(e, sp.Pow) and e.base == d and e.exp.is_Integer and e.exp >= k, red)
     return expr.xreplace({target: value})
+
+
+def implicit_rules(eq: sp.Expr, metric_functions: set, max_order: int = 2) -> list[tuple[sp.Basic, sp.Expr]] | None:
+    """Substitutions from a relation ``F(f, x) = 0`` that fixes a metric function ``f`` implicitly.
+
+    Implicit differentiation gives every derivative of ``f`` up to ``max_order``
+    (the curvature needs two) in terms of ``f`` itself; the relation then removes
+    one transcendental atom (``exp(f/(2M))`` for Kruskal–Szekeres) or a power of a
+    coordinate. ``None`` when the relation has no such form.
+    """
+    funcs = [a for a in eq.atoms(sp.core.function.AppliedUndef) if a.func in metric_functions]
+    if len(funcs) != 1 or eq.atoms(sp.Derivative):
+        return None
+    f = funcs[0]
+    args = [a for a in f.args if isinstance(a, sp.Symbol)]
+    F = sp.Dummy("F")
+    rel = eq.xreplace({f: F})
+    dF = sp.diff(rel, F)
+    if dF == 0:
+        return None
+    first = {x: sp.cancel(-sp.diff(rel, x) / dF) for x in args}
+
+    def total(e, x):
+        return sp.diff(e, x) + sp.diff(e, F) * first[x]
+
+    rules: list[tuple[sp.Basic, sp.Expr]] = []
+    values = {(x,): first[x] for x in args}
+    frontier = dict(values)
+    for _ in range(max_order - 1):
+        nxt = {}
+        for key, v in frontier.items():
+            for x in args:
+                k2 = tuple(sorted(key + (x,), key=args.index))
+                if k2 not in values and k2 not in nxt:
+                    nxt[k2] = sp.cancel(total(v, x))
+        values.update(nxt)
+        frontier = nxt
+    for key, v in sorted(values.items(), key=lambda kv: -len(kv[0])):
+        rules.append((sp.Derivative(f, *key), v.xreplace({F: f})))
+    # Remove one atom with the relation itself: an exponential it is linear in, else a power of a coordinate.
+    x = sp.Dummy("x")
+    for atom in sorted(rel.atoms(sp.exp), key=sp.default_sort_key):
+        lin = rel.subs(atom, x)
+        c = sp.cancel(sp.diff(lin, x))
+        if c != 0 and not c.has(x) and not lin.subs(x, 0).has(atom):
+            rules.append((atom.xreplace({F: f}), sp.cancel(-lin.subs(x, 0) / c).xreplace({F: f})))
+            return rules
+    for s in args:
+        pows = {p.exp for p in rel.atoms(sp.Pow) if p.base == s and p.exp.is_Integer and p.exp > 1}
+        if len(pows) == 1:
+            kpow = pows.pop()
+            lin = rel.subs(s**kpow, x)
+            if not lin.has(s):
+                c = sp.cancel(sp.diff(lin, x))
+                if c != 0 and not c.has(x):
+                    rules.append((s**kpow, sp.cancel(-lin.subs(x, 0) / c).xreplace({F: f})))
+                    return rules
+    return rules

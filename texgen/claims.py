@@ -514,16 +514,23 @@ def imposed_substitutions(spacetime: Spacetime) -> tuple[tuple[tuple[sp.Basic, s
     relations = parse_impose(spacetime)
     metric_funcs = {f.func for f in spacetime.metric.atoms(sp.core.function.AppliedUndef)}
     out: list[tuple[sp.Basic, sp.Expr]] = []
+    implicit = ""
     for i, rel in enumerate(relations):
         rel = sp.cancel(reduce_imposed(rel, out))
         if rel == 0:
             continue
         sol = _sources.solve_relation(rel, metric_funcs)
-        if sol is None:
+        if sol is not None:
+            out.append(sol)
+            continue
+        rules = _sources.implicit_rules(rel, metric_funcs)
+        if rules is None:
             return tuple(out), (f"impose[{i}] cannot be solved for a function or a derivative, "
                                 "so it was not used")
-        out.append(sol)
-    return tuple(out), ""
+        out.extend(rules)
+        # Random stand-ins cannot obey an implicit relation: only exact decisions count from here on.
+        implicit = f"impose[{i}] fixes a function implicitly; numbers at random points would prove nothing"
+    return tuple(out), implicit
 
 
 def reduce_imposed(expr: sp.Expr, imposed) -> sp.Expr:
