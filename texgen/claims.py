@@ -511,6 +511,21 @@ def imposed_substitutions(spacetime: Spacetime) -> tuple[tuple[tuple[sp.Basic, s
     the metric does not contain, else for its highest derivative; a relation that
     becomes 0 = 0 is redundant and skipped.
     """
+    hit = _IMPOSED.get(id(spacetime))
+    if hit is not None and hit[0] is spacetime:
+        return hit[1]
+    result = _solve_imposed(spacetime)
+    if len(_IMPOSED) > 16:
+        _IMPOSED.clear()
+    _IMPOSED[id(spacetime)] = (spacetime, result)
+    return result
+
+
+_IMPOSED: dict[int, tuple[Spacetime, tuple]] = {}
+"""Solved relations by model: every decision of one file uses them."""
+
+
+def _solve_imposed(spacetime: Spacetime) -> tuple[tuple[tuple[sp.Basic, sp.Expr], ...], str]:
     relations = parse_impose(spacetime)
     metric_funcs = {f.func for f in spacetime.metric.atoms(sp.core.function.AppliedUndef)}
     out: list[tuple[sp.Basic, sp.Expr]] = []
@@ -654,14 +669,34 @@ def _decide_one(spacetime: Spacetime, curvature, claim: Claim, seed: int) -> Cla
         if claim.name == "energy_density":
             derived = an.energy_density
         else:
-            spatial = [i for i in range(spacetime.dimension) if i != _time_index(spacetime)]
-            derived = an.pressures[spatial.index(claim.indices[0])]
+            i = _frame_direction(spacetime, an, claim.indices[0])
+            if i is None:
+                return ClaimResult(claim, "undecided", "the analysis gives no principal pressure along "
+                                   + spacetime.coordinates[claim.indices[0]].name)
+            derived = an.pressures[i]
         return _from_decision(claim, derived, decide_equal(spacetime, curvature, claim.expected, derived, seed))
     if claim.kind == "scalar":
         derived = getattr(curvature, claim.name)
     else:
         derived = _component(curvature, claim.name, claim.indices)
     return _from_decision(claim, derived, decide_equal(spacetime, curvature, claim.expected, derived, seed))
+
+
+def _frame_direction(spacetime: Spacetime, an, coord: int) -> int | None:
+    """Which principal pressure lies along coordinate ``coord``: the frame leg pointing along it."""
+    n = len(an.pressures)
+    if n == 0:
+        return None
+    frame = getattr(an, "frame", None)
+    tidx = _time_index(spacetime)
+    if frame is not None and frame.rows == n + 1:
+        for i in range(1, n + 1):
+            spatial = [a for a in range(frame.cols) if a != tidx and frame[i, a] != 0]
+            if spatial == [coord]:
+                return i - 1
+        return None
+    order = [a for a in range(spacetime.dimension) if a != tidx]
+    return order.index(coord) if coord in order and order.index(coord) < n else None
 
 
 def _from_decision(claim: Claim, derived, dec: Decision) -> ClaimResult:
