@@ -503,3 +503,35 @@ def test_demo_report_shows_the_checks(demo):
     assert "## Checks" in md
     assert "| energy-density-notebook | **fails** |" in md and "| dominant | **fails** |" in md
     assert "**2 of 8 claims do not hold.**" in md
+
+
+def test_potential_that_is_not_source_free_fails_maxwell():
+    # A_t = -Q/r^2 on Reissner-Nordstrom: (1/sqrt(-g)) d_r(sqrt(-g) F^{rt}) = 2Q/r^4 (worked by hand,
+    # with F_rt = 2Q/r^3 and sqrt(-g) = r^2 sin(theta)).
+    model, cv = _load(REISSNER_NORDSTROM.replace("CHARGE/r", "-Q/r^2"))
+    res = claims.check_source(model, cv)
+    Q, r = sp.Symbol("Q", real=True), sp.Symbol("r", positive=True)
+    assert res.status == "fails"
+    assert [(name, key) for name, key, _ in res.extra] == [("maxwell", (0,))]
+    assert cv.is_zero(res.extra[0][2] - 2 * Q / r**4)
+
+
+def test_matter_claims_and_horizons_as_sets():
+    # Reissner-Nordstrom: horizons M +- sqrt(M^2 - Q^2) (MTW 1973, ex. 31.8); Coulomb energy density
+    # Q^2/(8 pi r^4) (common practice); the electromagnetic field obeys the dominant energy condition
+    # (Hawking & Ellis 1973, ch. 4).
+    text = REISSNER_NORDSTROM.replace("CHARGE", "-Q") + """\
+structure:
+  horizon_function: r^2 - 2*M*r + Q^2
+claims:
+  - {label: h, quantity: horizons, equals: ["M - sqrt(M^2 - Q^2)", "M + sqrt(M^2 - Q^2)"]}
+  - {label: h1, quantity: horizons, equals: ["M + sqrt(M^2 - Q^2)"]}
+  - {label: rho, quantity: energy_density, equals: Q^2/(8*pi*r^4)}
+  - {label: pr, quantity: pressure, indices: [r], equals: -Q^2/(8*pi*r^4)}
+  - {label: pt, quantity: pressure, indices: [phi], equals: -Q^2/(8*pi*r^4)}
+  - {label: dec, energy_condition: dominant, verdict: holds}
+  - {label: nec, energy_condition: null, verdict: violated}
+"""
+    got = [(r.claim.label, r.status) for r in _decide(text)]
+    assert got == [("h", "proved"), ("h1", "fails"), ("rho", "proved"), ("pr", "proved"), ("pt", "fails"),
+                   ("dec", "proved"), ("nec", "fails")]

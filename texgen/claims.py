@@ -854,7 +854,7 @@ _STATUS_TEXT = {"proved": "proved", "agrees_numerically": "agrees numerically", 
                 "undecided": "undecided"}
 
 
-def _claim_data(printer, r: ClaimResult) -> dict:
+def _claim_data(printer, r: ClaimResult, shorten=lambda e: e) -> dict:
     from .latex import escape_text
     from .report import equation
 
@@ -876,9 +876,9 @@ def _claim_data(printer, r: ClaimResult) -> dict:
         item["claimed"] = equation(printer, lhs, c.expected)
         item["statement"] = ""
         if r.status == "fails" and isinstance(r.derived, sp.Expr):
-            item["derived"] = equation(printer, lhs, r.derived)
+            item["derived"] = equation(printer, lhs, shorten(r.derived))
             if r.difference is not None:
-                item["difference"] = equation(printer, r"\text{claimed} - \text{derived}", r.difference)
+                item["difference"] = equation(printer, r"\text{claimed} - \text{derived}", shorten(r.difference))
     item["statement_md"] = item["statement"]
     if r.witness is not None:
         item["witness"] = {"point": ", ".join(f"{k} = {v}" for k, v in r.witness.point),
@@ -886,7 +886,7 @@ def _claim_data(printer, r: ClaimResult) -> dict:
     return item
 
 
-def _source_data(printer, s: SourceResult) -> dict:
+def _source_data(printer, s: SourceResult, shorten=lambda e: e) -> dict:
     from .latex import escape_text
     from .report import equation
 
@@ -894,7 +894,7 @@ def _source_data(printer, s: SourceResult) -> dict:
     item = {"type": s.type, "type_text": s.type.replace("_", " "), "status": s.status,
             "status_text": _STATUS_TEXT[s.status], "holds": s.holds, "method": s.method,
             "method_tex": escape_text(s.method),
-            "residual": [equation(printer, r"\mathcal{E}_{" + names[a] + " " + names[b] + "}", v)
+            "residual": [equation(printer, r"\mathcal{E}_{" + names[a] + " " + names[b] + "}", shorten(v))
                          for (a, b), v in s.residual],
             "extra": [equation(printer, (r"\partial_a(\sqrt{|g|}F^{a" + names[k[0]] + "})/\\sqrt{|g|}")
                                if nm == "maxwell" else r"\text{normalisation}", v) for nm, k, v in s.extra],
@@ -909,11 +909,18 @@ def report_section(spacetime: Spacetime, curvature, printer) -> dict | None:
     """Plain data for the report's "Checks" section, or ``None`` without claims or source."""
     if spacetime.section("claims") is None and spacetime.section("source") is None:
         return None
-    claims = [_claim_data(printer, r) for r in decide_claims(spacetime, curvature)]
+    def shorten(e):
+        # The engine's display form (definitions' symbols, factors), where it applies.
+        try:
+            return curvature.display(e)
+        except DerivationError:
+            return e
+
+    claims = [_claim_data(printer, r, shorten) for r in decide_claims(spacetime, curvature)]
     src = check_source(spacetime, curvature)
     return {"template_tex": "sections/claims.tex.j2", "template_md": "sections/claims.md.j2",
             "claims": claims, "failed": sum(1 for c in claims if not c["holds"]),
-            "source": _source_data(printer, src) if src is not None else None}
+            "source": _source_data(printer, src, shorten) if src is not None else None}
 
 
 def _text(x) -> Any:
