@@ -535,3 +535,19 @@ claims:
     got = [(r.claim.label, r.status) for r in _decide(text)]
     assert got == [("h", "proved"), ("h1", "fails"), ("rho", "proved"), ("pr", "proved"), ("pt", "fails"),
                    ("dec", "proved"), ("nec", "fails")]
+
+
+def test_check_reads_each_file_through_the_api(monkeypatch, tmp_path, capsys):
+    seen = []
+
+    def fake_load(path):
+        seen.append(str(path))
+        raise ConfigError("Expected a mapping but received: a list")
+
+    monkeypatch.setattr(api, "load_spacetime", fake_load)
+    files = [tmp_path / "a.yaml", tmp_path / "b.yaml"]
+    for f in files:
+        f.write_text("x")
+    assert cli.main(["check", str(files[0]), str(files[1])]) == 2
+    assert seen == [str(files[0]), str(files[1])]
+    assert capsys.readouterr().err.count("error: Expected a mapping but received: a list") == 2
