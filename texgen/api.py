@@ -75,8 +75,13 @@ class BuildOptions:
     force: bool = False
 
 
-SECTION_MODULES = ("texgen.analysis", "texgen.claims")
-"""Later stages that add a report section: each has ``report_section`` and ``results``."""
+SECTION_MODULES = ("texgen.claims",)
+"""Later stages that add a report section: each has ``report_section`` and ``results``.
+
+texgen.analysis provides both too, but stays out of the default reports until its
+section breaks long expressions over lines and its frame algebra is fast enough for
+Kerr–Newman (see DEVELOPERS.md); it is used through its API and by the claims.
+"""
 
 
 def _stage_modules() -> list:
