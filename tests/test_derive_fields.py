@@ -6,6 +6,7 @@ import sympy as sp
 
 from texgen import _fields
 from texgen.derive import Curvature
+from texgen.errors import DerivationError
 from texgen.model import spacetime_from_matrix
 
 t, r, th, ph = sp.symbols("t r theta phi", real=True)
@@ -161,3 +162,21 @@ def test_generator_depth_follows_the_shortest_chain():
     depth = {str(g.expr): (g.depth, g.derivs is None) for g in F.gens}
     assert depth["Derivative(f(r), (r, 4))"] == (3, False)
     assert depth["Derivative(f(r), (r, 5))"] == (4, True)
+
+
+def test_zero_divisor_midway_falls_back_to_expressions():
+    # sqrt(r^2 + 2r + 1) is |r + 1|: S^2 = (r + 1)^2 has zero divisors, and inverting
+    # S - r - 1 fails in the field; the engine starts again with plain expressions
+    g = sp.diag(-1, sp.sqrt(r**2 + 2 * r + 1) - r - 1)
+    cv = Curvature(spacetime_from_matrix((t, r), g))
+    assert cv.algebra.name == "field" and not cv.algebra.exact
+    assert cv.inverse[1, 1] == -1 / (r - sp.sqrt(r**2 + 2 * r + 1) + 1)
+    assert cv.algebra.name == "expr"
+    assert cv.ricci_scalar == 0
+
+
+def test_fixed_backend_reports_what_it_cannot_do():
+    g = sp.diag(-1, sp.sqrt(r**2 + 2 * r + 1) - r - 1)
+    cv = Curvature(spacetime_from_matrix((t, r), g), backend=_fields.available_backends()[0])
+    with pytest.raises(DerivationError, match="^inverse: a relation makes this denominator vanish$"):
+        cv.inverse

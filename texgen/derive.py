@@ -111,12 +111,18 @@ class Curvature:
     def _stage(self, name: str, compute: Callable[[], Any]) -> Any:
         if name in self._cache:
             return self._cache[name]
+        outer = not self._stack
+        retry = False
         frame = [name.lstrip("_"), time.perf_counter(), time.process_time(), 0.0, 0.0]
         self._stack.append(frame)
         try:
             value = compute()
         except _fields.Unmappable as exc:
-            raise DerivationError(f"{frame[0]}: {exc}") from None
+            if not outer:
+                raise  # the outermost stage decides
+            if self.backend != "auto" or not isinstance(self._alg, _fields.FieldAlgebra):
+                raise DerivationError(f"{frame[0]}: {exc}") from None
+            retry = True
         except ZeroDivisionError:
             raise DerivationError(f"{frame[0]}: division by zero (is the metric degenerate?)") from None
         except (TypeError, ValueError, AttributeError, NotImplementedError, sp.PolynomialError) as exc:
@@ -132,6 +138,12 @@ class Curvature:
             if self._stack:
                 self._stack[-1][3] += wall
                 self._stack[-1][4] += cpu
+        if retry:
+            # the field met something it cannot represent midway (a relation with zero
+            # divisors): start again with plain expressions, which always work
+            self._alg = _fields.ExprAlgebra(self.coordinates)
+            self._cache.clear()
+            return self._stage(name, compute)
         self._cache[name] = value
         return value
 
