@@ -79,7 +79,10 @@ class Curvature:
         Optional ``progress(stage, done, total)`` called as components finish.
     backend:
         ``"auto"`` (default), ``"flint"``, ``"polys"`` or ``"expr"``: the arithmetic
-        used (see :func:`texgen._fields.make_algebra`); results do not depend on it.
+        used (see :func:`texgen._fields.make_algebra`; ``flint`` means ``polys`` when
+        python-flint is not installed).  The values do not depend on it; the printed
+        form does for ``expr`` (sympy's ``cancel`` form).  ``auto`` falls back to
+        ``expr`` when the field cannot represent the input, also midway.
     """
 
     def __init__(self, spacetime: Spacetime, *, budget: Any = None,
