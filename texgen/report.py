@@ -362,7 +362,16 @@ def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None
             gs = dict(p.settings, time_symbol=getattr(cv, "affine_parameter", None))
             ctx["geodesics"] = []
             for eq in geo:
-                lines = to_latex_lines(eq.lhs, max_width=options.max_width - 4, **gs)
+                # The acceleration first, as the equations are written on paper.
+                acc = [t for t in sp.Add.make_args(eq.lhs) if isinstance(t, sp.Derivative)]
+                rest = eq.lhs - acc[0] if acc else eq.lhs
+                lines = to_latex_lines(rest, max_width=options.max_width - 8, **gs)
+                if acc and rest != 0:
+                    first = lines[0].lstrip()
+                    sign = "" if first.startswith("-") else "+ "
+                    lines[0] = to_latex(acc[0], **gs) + " " + sign + first
+                elif acc:
+                    lines = [to_latex(acc[0], **gs)]
                 lines[-1] += " = 0"
                 ctx["geodesics"].append({"latex": " ".join(lines), "lines": lines})
     return ctx
