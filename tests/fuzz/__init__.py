@@ -1,0 +1,1 @@
+"""Fuzzing of texgen's input stages: seeded mutations of the library's spacetime files."""
