@@ -155,8 +155,12 @@ _TRIG_REWRITE = {
 }
 
 
-def prepare(expr: sp.Expr) -> sp.Expr:
-    """Rewrite tan-like functions through sin/cos and expand multiple angles."""
+def prepare(expr: sp.Expr, sums: bool = False) -> sp.Expr:
+    """Rewrite tan-like functions through sin/cos and expand multiple angles.
+
+    With ``sums``, sin/cos/sinh/cosh of a sum are expanded by the addition theorems
+    too (used when the arguments present are linearly dependent).
+    """
     expr = sp.sympify(expr)
     for f, rule in _TRIG_REWRITE.items():
         if expr.has(f):
@@ -170,14 +174,55 @@ def prepare(expr: sp.Expr) -> sp.Expr:
 
     if expr.has(sp.sin, sp.cos, sp.sinh, sp.cosh):
         expr = expr.replace(multiple, lambda x: sp.expand_trig(x))
+        if sums:
+            def summed(x):
+                return isinstance(x, (sp.sin, sp.cos, sp.sinh, sp.cosh)) and \
+                    sp.expand(x.args[0], deep=False).is_Add
+
+            def theorem(x):
+                # expand over placeholder symbols so the summands themselves stay as written
+                terms = sp.Add.make_args(sp.expand(x.args[0], deep=False))
+                marks = [sp.Dummy() for _ in terms]
+                return sp.expand_trig(x.func(sp.Add(*marks))).xreplace(dict(zip(marks, terms)))
+
+            expr = expr.replace(summed, theorem)
+            expr = expr.replace(multiple, lambda x: sp.expand_trig(x))
     return expr
+
+
+def _linearly_independent(keys: Sequence[sp.Expr]) -> bool:
+    """Whether the arguments are linearly independent over Q modulo constants.
+
+    Then sin/cos (sinh/cosh/exp) of them are algebraically independent and the field's
+    form is canonical; sin θ, sin 2θ or sinh(u + R), sinh(u - R), sinh R are not.
+    """
+    rows = []
+    monomials: dict[sp.Expr, int] = {}
+    for u in keys:
+        row: dict[int, sp.Rational] = {}
+        for term in sp.Add.make_args(sp.expand(u)):
+            c, m = term.as_coeff_Mul()
+            if not c.is_Rational:
+                c, m = sp.S.One, term
+            if m.is_number:
+                continue  # constants shift the argument without changing independence
+            j = monomials.setdefault(m, len(monomials))
+            row[j] = row.get(j, 0) + c
+        if not any(row.values()):
+            return False
+        rows.append(row)
+    if not rows:
+        return True
+    mat = sp.Matrix(len(rows), len(monomials), lambda i, j: rows[i].get(j, 0))
+    return mat.rank() == len(rows)
 
 
 class _Discovery:
     """Walks expressions and collects the generators (closed under differentiation)."""
 
-    def __init__(self, coordinates: Sequence[sp.Symbol]):
+    def __init__(self, coordinates: Sequence[sp.Symbol], sums: bool = False):
         self.coords = tuple(coordinates)
+        self.sums = sums
         self.gens: dict[sp.Expr, Gen] = {}
         self.exp_coeffs: dict[sp.Expr, set] = {}
         self.exp_gens: dict[sp.Expr, Gen] = {}
@@ -316,13 +361,13 @@ class _Discovery:
                 d = base * sp.diff(rest, x)
                 if d != 0:
                     g.derivs[k] = ("exp", d)
-                    self.walk(prepare(d), g.depth + 1)
+                    self.walk(prepare(d, self.sums), g.depth + 1)
                 continue
             if not g.expr.has(x):
                 continue
             d = sp.diff(g.expr, x)
             if d != 0:
-                d = prepare(d)
+                d = prepare(d, self.sums)
                 g.derivs[k] = d
                 self.walk(d, g.depth + 1)
 
@@ -339,6 +384,15 @@ def _rational_gcd(cs: Iterable[sp.Rational]) -> sp.Rational:
 # ---------------------------------------------------------------------------
 # the field
 # ---------------------------------------------------------------------------
+
+def _argument_families(gens) -> tuple[list, list]:
+    """Arguments of the circular and of the hyperbolic/exponential generators."""
+    gens = list(gens)
+    circular = [g.key for g in gens if g.kind == "sin"]
+    hyperbolic = [g.key for g in gens if g.kind == "sinh"] + \
+        [g.key[0] * g.key[1] for g in gens if g.kind == "exp" and g.key[0] != 1]
+    return circular, hyperbolic
+
 
 class Rat:
     """An element ``num / prod(factor_i ** e_i)`` of a :class:`FieldAlgebra`."""
@@ -409,12 +463,12 @@ class FieldAlgebra:
     def __init__(self, coordinates: Sequence[sp.Symbol], expressions: Iterable[sp.Expr],
                  backend: str = "flint"):
         self.coordinates = tuple(coordinates)
-        disc = _Discovery(self.coordinates)
-        for c in self.coordinates:
-            disc.add(c, "symbol", 0)
-        for e in expressions:
-            disc.walk(prepare(e))
-        disc.close()
+        expressions = list(expressions)
+        disc = self._discover(expressions, sums=False)
+        if not all(_linearly_independent(k) for k in _argument_families(disc.gens.values())):
+            # related arguments such as sinh(u + R), sinh(u - R): expand the sums
+            disc = self._discover(expressions, sums=True)
+        self.sums = disc.sums
         gens = list(disc.gens.values())
         # algebraic generators first: with lex order the relation X^2 - R then has
         # leading term X^2 and polynomial division reduces to degree one in X.
@@ -473,22 +527,24 @@ class FieldAlgebra:
             self.gen_diff.append(dd)
 
     # -- setup -------------------------------------------------------------
+    def _discover(self, expressions, sums: bool) -> "_Discovery":
+        disc = _Discovery(self.coordinates, sums)
+        for c in self.coordinates:
+            disc.add(c, "symbol", 0)
+        for e in expressions:
+            disc.walk(prepare(e, sums))
+        disc.close()
+        return disc
+
     def _check_exactness(self) -> None:
         """Clear :attr:`exact` where generators may be algebraically related.
 
-        sin/cos of arguments u and v are related when u/v or u - v is a number
-        (sin 2θ, cos(θ + π)); sinh, cosh and exp likewise among themselves.
+        sin/cos of linearly dependent arguments are related (sin θ and sin 2θ, or
+        sin(θ + φ) with sin θ and sin φ); sinh, cosh and exp likewise among themselves.
         """
-        circular = [g.key for g in self.gens if g.kind == "sin"]
-        hyperbolic = [g.key for g in self.gens if g.kind == "sinh"] + \
-            [g.key[0] * g.key[1] for g in self.gens if g.kind == "exp" and g.key[0] != 1]
-        for keys in (circular, hyperbolic):
-            if any(u.is_Add for u in keys):
-                self.exact = False  # sin(θ + φ) next to sin θ, sin φ: the addition theorems
-            for i, u in enumerate(keys):
-                for v in keys[i + 1:]:
-                    if sp.cancel(u / v).is_number or sp.expand(u - v).is_number:
-                        self.exact = False
+        for keys in _argument_families(self.gens):
+            if not _linearly_independent(keys):
+                self.exact = False
         for g in self.gens:
             if g.kind == "opaque":
                 self.exact = False
@@ -566,7 +622,7 @@ class FieldAlgebra:
 
     def from_sympy(self, expr: sp.Expr) -> Rat:
         """Convert a sympy expression; raise :class:`Unmappable` for unknown atoms."""
-        return self._conv(prepare(sp.sympify(expr)))
+        return self._conv(prepare(sp.sympify(expr), self.sums))
 
     def _conv(self, e: sp.Expr) -> Rat:
         got = self._memo.get(e)
