@@ -1,12 +1,16 @@
 """The ``texgen`` command: a thin layer over :mod:`texgen.api`.
 
 Exit codes: 0 success, 1 a claim failed, 2 bad input or usage, 3 internal
-error (the traceback goes to a log file, never the terminal), 130 interrupted.
+error (the traceback goes to a log file, never the terminal), 130 interrupted
+by SIGINT (Ctrl-C), 143 stopped by SIGTERM (128 + the signal number, as shells
+report it). Both signals unwind the same way: temporary files are removed and
+reports already written, or written before, stay intact.
 """
 from __future__ import annotations
 
 import argparse
 import os
+import signal
 import sys
 import tempfile
 import traceback
@@ -16,6 +20,15 @@ from . import api
 from .errors import ClaimFailed, ConfigError, DerivationError, RenderError, TexgenError
 
 EXIT_OK, EXIT_CLAIM, EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
+EXIT_TERMINATED = 143
+
+
+class _Terminated(KeyboardInterrupt):
+    """SIGTERM turned into an exception, so it unwinds (and cleans up) like Ctrl-C."""
+
+
+def _on_sigterm(signum, frame) -> None:
+    raise _Terminated()
 
 
 class _Parser(argparse.ArgumentParser):
@@ -94,6 +107,13 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help(sys.stderr)
         return EXIT_INPUT
     run: Callable[[argparse.Namespace], int] = args.run
+    installed, previous = False, None
+    try:
+        # Only the main thread may set handlers; elsewhere SIGTERM keeps its default.
+        previous = signal.signal(signal.SIGTERM, _on_sigterm)
+        installed = True
+    except ValueError:
+        pass
     try:
         return run(args)
     except ClaimFailed as exc:
@@ -102,6 +122,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except (ConfigError, RenderError, DerivationError, TexgenError) as exc:
         print(f"error: {exc.format_message()}", file=sys.stderr)
         return EXIT_INPUT
+    except _Terminated:
+        print("error: terminated; outputs already written are intact", file=sys.stderr)
+        return EXIT_TERMINATED
     except KeyboardInterrupt:
         print("error: interrupted; outputs already written are intact", file=sys.stderr)
         return EXIT_INTERRUPTED
@@ -109,6 +132,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         log = _log_internal(exc)
         print(f"error: internal error ({type(exc).__name__}: {exc}); details in {log}", file=sys.stderr)
         return EXIT_INTERNAL
+    finally:
+        if installed:
+            signal.signal(signal.SIGTERM, signal.SIG_DFL if previous is None else previous)
 
 
 if __name__ == "__main__":  # pragma: no cover
