@@ -1,0 +1,122 @@
+"""Tests for texgen.library: relations between entries, listing, checks, bulk builds and the index."""
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+
+from texgen.api import load_spacetime
+from texgen.errors import ConfigError
+from texgen.library import check_relations, claims_status, load_entries
+
+LIB = Path(__file__).resolve().parent.parent / "metrics_yaml"
+KERR = LIB / "kerr" / "kerr.yaml"
+KERR_NEWMAN = LIB / "kerr" / "kerr_newman.yaml"
+SCHW = LIB / "schwarzschild" / "schwarzschild.yaml"
+EF = LIB / "schwarzschild" / "schwarzschild_eddington_finkelstein_ingoing.yaml"
+EF_ID = "schwarzschild-eddington-finkelstein-ingoing"
+
+
+def _entries(*paths):
+    models = [load_spacetime(p) for p in paths]
+    return {m.id: m for m in models}
+
+
+def test_kerr_newman_with_zero_charge_is_kerr():
+    """Kerr-Newman (Newman et al., J. Math. Phys. 6, 918 (1965)) at Q = 0 is Kerr (Kerr 1963)."""
+    [r] = check_relations(_entries(KERR, KERR_NEWMAN), ["kerr"])
+    assert (r.kind, r.other, r.holds, r.method, r.failures) == ("limit_of", "kerr-newman", True, "exact", ())
+
+
+def test_ingoing_eddington_finkelstein_maps_to_schwarzschild():
+    """v = t + r + 2M ln(r/2M - 1) (Finkelstein, Phys. Rev. 110, 965 (1958); MTW ch. 31):
+    the pulled-back metric, Ricci scalar and Kretschmann scalar agree."""
+    [r] = check_relations(_entries(SCHW, EF), [EF_ID])
+    assert (r.kind, r.other, r.holds, r.method) == ("same_as", "schwarzschild", True, "exact")
+
+
+def _with_relation(tmp_path, src: Path, relation: str) -> Path:
+    text = src.read_text(encoding="utf-8")
+    head, sep, _ = text.partition("relations:\n")
+    out = tmp_path / src.name
+    out.write_text((head if sep else text) + "relations:\n" + relation, encoding="utf-8")
+    return out
+
+
+def test_wrong_limit_fails_with_a_readable_message(tmp_path):
+    """Kerr-Newman with Q = 1 is not Kerr: g_tt differs by Q^2/Sigma, here 1/(r^2 + a^2 cos^2 theta)."""
+    path = _with_relation(tmp_path, KERR, "  - limit_of: kerr-newman\n    set: {Q: 1}\n")
+    [r] = check_relations(_entries(path, KERR_NEWMAN), ["kerr"])
+    assert not r.holds
+    assert r.method == "fails"
+    assert r.message.startswith("'kerr-newman' with Q = 1 is not this metric: g[t,t] differs by ")
+    assert r.failures[0][0] == "g[t,t]"
+    assert "and 3 more" in r.message  # g_tt, g_tphi, g_rr, g_phiphi carry Delta
+
+
+def test_wrong_map_fails(tmp_path):
+    """With t = v + r + 2M ln(r/2M - 1), dt = dv + dr/f and -f dt^2 + dr^2/f = -f dv^2 - 2 dv dr:
+    g_vr = -1 where the ingoing form has +1 (hand calculation, common practice)."""
+    path = _with_relation(tmp_path, EF, '  - same_as: schwarzschild\n'
+                                        '    map: {t: "v + r + 2*M*log(r/(2*M) - 1)", r: r, theta: theta, phi: phi}\n')
+    [r] = check_relations(_entries(path, SCHW), [EF_ID])
+    assert not r.holds
+    assert r.message == "'schwarzschild' pulled back through the map is not this spacetime: g[v,r] differs by -2"
+    assert r.failures == (("g[v,r]", "-2"),)
+
+
+@pytest.mark.parametrize("relation, where, message", [
+    ("  - limit_of: kerr-newmann\n    set: {Q: 0}\n", "relations[0].limit_of",
+     "Expected the id of a library entry but received: 'kerr-newmann' (did you mean 'kerr-newman'?)"),
+    ("  - limit_of: kerr-newman\n    set: {q: 0}\n", "relations[0].set.q",
+     "Expected a parameter of 'kerr-newman' (M, a, Q) but received: 'q'"),
+    ("  - limit_of: kerr-newman\n    set: {Q: 0 +}\n", "relations[0].set.Q", None),
+    ("  - limit_of: kerr-newman\n", "relations[0].set", "Expected a mapping of parameter: value but received: None"),
+    ("  - same_as: kerr-newman\n    map: {t: t, r: r, theta: theta, psi: phi}\n", "relations[0].map.psi",
+     "Expected a coordinate of 'kerr-newman' (t, r, theta, phi) but received: 'psi'"),
+    ("  - same_as: kerr-newman\n    map: {t: t, r: r, theta: theta}\n", "relations[0].map",
+     "Expected an expression for every coordinate of 'kerr-newman' but received none for: phi"),
+    ("  - same_as: kerr-newman\n    map: {t: t, r: r, theta: theta, phi: chi}\n", "relations[0].map.phi", None),
+    ("  - {limit_of: kerr-newman, same_as: kerr-newman}\n", "relations[0]", None),
+])
+def test_bad_relations_are_config_errors(tmp_path, relation, where, message):
+    path = _with_relation(tmp_path, KERR, relation)
+    with pytest.raises(ConfigError) as info:
+        check_relations(_entries(path, KERR_NEWMAN), ["kerr"])
+    err = info.value
+    assert err.location.file == str(path)
+    assert err.location.path == where
+    assert err.location.line is not None and err.location.line > 60
+    if message is not None:
+        assert err.message + (f" ({err.hint})" if err.hint else "") == message
+
+
+def test_relation_error_line_points_at_the_key(tmp_path):
+    path = _with_relation(tmp_path, EF, '  - same_as: schwarzschild\n    map:\n      t: v\n      r: r\n'
+                                        '      theta: theta\n      phi: phi\n      x: r\n')
+    with pytest.raises(ConfigError) as info:
+        check_relations(_entries(path, SCHW), [EF_ID])
+    lines = path.read_text(encoding="utf-8").splitlines()
+    assert lines[info.value.location.line - 1] == "      x: r"
+
+
+def test_every_library_relation_holds():
+    """All relations declared in metrics_yaml/ hold (the entries' references are in each file)."""
+    entries, errors = load_entries([LIB])
+    assert errors == []
+    results = check_relations(entries)
+    assert len(results) >= 13
+    assert [(r.id, r.other, r.message) for r in results if not r.holds] == []
+
+
+@pytest.mark.parametrize("results, text", [
+    (None, ""),
+    ({}, ""),
+    ({"claims": []}, "no claims"),
+    ({"claims": [{"holds": True}, {"holds": True}], "source_check": {"holds": True}}, "3/3 hold"),
+    ({"claims": [{"holds": True}, {"holds": False}], "source_check": None}, "1/2 hold, 1 fails"),
+    ({"claims": [{"holds": False}, {"holds": False}]}, "0/2 hold, 2 fail"),
+])
+def test_claims_status(results, text):
+    assert claims_status(results) == text

@@ -1,0 +1,132 @@
+"""On-disk cache of derived results, so that a rebuild recomputes only what changed.
+
+One entry per spacetime and report options holds the plain-data report context
+and the JSON results (JSON only, never pickle).  The key joins the physics hash
+(:func:`texgen.versioning.physics_hash`), a hash of the prose and claims the
+report shows, texgen's version, the conventions and the report options: a
+template-only change therefore recomputes nothing, and a comment or layout
+change in the YAML file does not either.  Every entry carries a SHA-256 of its
+payload; a corrupt, truncated or foreign entry is logged at debug level and
+recomputed, never trusted.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import logging
+import os
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from . import __version__
+from .model import Spacetime
+
+log = logging.getLogger(__name__)
+
+FORMAT = 1
+"""Layout of a cache entry; a change makes old entries misses."""
+
+
+def default_dir() -> Path:
+    """``$XDG_CACHE_HOME/texgen``, else ``~/.cache/texgen`` (the XDG base-directory default)."""
+    base = os.environ.get("XDG_CACHE_HOME")
+    return (Path(base) if base else Path.home() / ".cache") / "texgen"
+
+
+def _digest(data: Any) -> str:
+    text = json.dumps(data, sort_keys=True, ensure_ascii=False, separators=(",", ":"))
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def entry_key(model: Spacetime, options: dict | None = None) -> dict:
+    """What a cached entry of ``model`` depends on, as plain data."""
+    from .versioning import physics_hash
+
+    conv = model.conventions
+    shown = {"id": model.id, "title": model.title, "version": model.version,
+             "description": model.description, "references": list(model.references),
+             "notes": model.notes, "family": model.family, "changelog": [list(c) for c in model.changelog],
+             "derive": list(model.derive),
+             "definitions": [[d.name, d.latex, str(d.expression)] for d in model.definitions],
+             "latex": [[x.name, x.latex] for x in (*model.coordinates, *model.parameters, *model.functions)],
+             "metric_display": [str(e) for e in model.metric_display],
+             "sections": {s.key: s.data for s in model.sections}}
+    return {"physics": physics_hash(model), "shown": _digest(shown), "texgen": __version__,
+            "conventions": [conv.signature, int(conv.riemann_sign), conv.units],
+            "options": options or {}}
+
+
+@dataclass(frozen=True)
+class CacheInfo:
+    """What ``texgen cache info`` prints."""
+
+    path: str
+    entries: int
+    bytes: int
+
+
+@dataclass(frozen=True)
+class ResultCache:
+    """A folder of JSON cache entries (picklable: worker processes get the same folder)."""
+
+    root: Path
+
+    @classmethod
+    def at(cls, path: str | Path | None = None) -> "ResultCache":
+        """The cache in ``path``, or in :func:`default_dir`."""
+        return cls(Path(path) if path is not None else default_dir())
+
+    def _file(self, key: dict) -> Path:
+        name = _digest(key)
+        return self.root / name[:2] / f"{name}.json"
+
+    def get(self, key: dict) -> dict | None:
+        """The payload stored under ``key``, or ``None`` (missing, corrupt or not ours)."""
+        path = self._file(key)
+        try:
+            raw = path.read_bytes()
+        except FileNotFoundError:
+            return None
+        except OSError as exc:
+            log.debug("cache entry %s unreadable: %s", path, exc)
+            return None
+        try:
+            data = json.loads(raw.decode("utf-8"))
+            ok = (isinstance(data, dict) and data.get("format") == FORMAT and data.get("key") == key
+                  and isinstance(data.get("payload"), dict) and data.get("checksum") == _digest(data["payload"]))
+        except (UnicodeDecodeError, json.JSONDecodeError, TypeError) as exc:
+            log.debug("cache entry %s is corrupt (%s); recomputing", path, exc)
+            return None
+        if not ok:
+            log.debug("cache entry %s failed its integrity check; recomputing", path)
+            return None
+        return data["payload"]
+
+    def put(self, key: dict, payload: dict) -> Path:
+        """Store ``payload`` (plain JSON data) under ``key``, atomically."""
+        from .render import write_atomic
+
+        data = {"format": FORMAT, "key": key, "checksum": _digest(payload), "payload": payload}
+        text = json.dumps(data, sort_keys=True, ensure_ascii=False, separators=(",", ":"))
+        return write_atomic(self._file(key), text, own_check=False)
+
+    def _files(self) -> list[Path]:
+        if not self.root.is_dir():
+            return []
+        return sorted(p for p in self.root.glob("??/*.json") if p.is_file())
+
+    def info(self) -> CacheInfo:
+        files = self._files()
+        return CacheInfo(str(self.root), len(files), sum(p.stat().st_size for p in files))
+
+    def clear(self) -> int:
+        """Remove every entry (and nothing else); returns how many were removed."""
+        files = self._files()
+        for p in files:
+            p.unlink(missing_ok=True)
+            try:
+                p.parent.rmdir()
+            except OSError:
+                pass  # other entries still share the folder
+        return len(files)

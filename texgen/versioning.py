@@ -1,0 +1,310 @@
+"""Versions of library entries: a canonical hash of the physics, version checks, diffs.
+
+The physics hash covers what decides the geometry (metric with definitions
+expanded, coordinates with ranges and periods, parameters with assumptions and
+ranges, functions, cosmological constant, conventions) and nothing a reader
+edits freely (title, description, references, notes, changelog, version,
+comments, layout).  It is built from ``sympy.srepr`` of canonical forms inside
+JSON with sorted keys, so it is the same in every process and on every machine.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import re
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Iterable
+
+import sympy as sp
+
+from .errors import ConfigError, Location
+from .model import Range, Spacetime
+
+RECORD_FILE = "VERSIONS.json"
+"""The stored (id, version, physics hash) record of a library folder."""
+
+_SEMVER = re.compile(r"^(\d+)\.(\d+)\.(\d+)(?:-([0-9A-Za-z.\-]+))?$")
+
+
+def _canon(expr: Any) -> str:
+    """srepr of a canonical form: ``cancel`` makes ``1 - 2M/r`` and ``(r - 2M)/r`` the same."""
+    if expr is None:
+        return ""
+    e = sp.sympify(expr)
+    try:
+        e = sp.cancel(e)
+    except (sp.PolynomialError, TypeError, ValueError, NotImplementedError):
+        pass  # the expression as built is canonical enough for non-rational input
+    return sp.srepr(e)
+
+
+def _range(rng: Range | None) -> list | None:
+    if rng is None:
+        return None
+    return [_canon(rng.lower), rng.lower_strict, _canon(rng.upper), rng.upper_strict]
+
+
+def physics_data(model: Spacetime) -> dict:
+    """The physics of ``model`` as plain, canonical data (what :func:`physics_hash` hashes)."""
+    conv = model.conventions
+    n = model.dimension
+    return {
+        "coordinates": [{"name": c.name, "symbol": sp.srepr(c.symbol), "range": _range(c.range),
+                         "period": _canon(c.period)} for c in model.coordinates],
+        "parameters": {p.name: {"symbol": sp.srepr(p.symbol), "assumptions": sorted(p.assumptions),
+                                "range": _range(p.range)} for p in model.parameters},
+        "functions": {f.name: {"arguments": [str(a) for a in f.arguments],
+                               "assumptions": sorted(f.assumptions)} for f in model.functions},
+        "metric": {f"{i},{j}": _canon(model.metric[i, j]) for i in range(n) for j in range(i, n)
+                   if model.metric[i, j] != 0},
+        "cosmological_constant": _canon(model.cosmological_constant),
+        "conventions": {"signature": conv.signature, "riemann_sign": int(conv.riemann_sign),
+                        "units": conv.units, "G": str(conv.G or ""), "c": str(conv.c or "")},
+    }
+
+
+def physics_hash(model: Spacetime) -> str:
+    """SHA-256 (hex) of :func:`physics_data`; unchanged by comments, layout and prose."""
+    text = json.dumps(physics_data(model), sort_keys=True, ensure_ascii=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode("ascii")).hexdigest()
+
+
+def parse_version(text: str) -> tuple[int, int, int, str]:
+    """``'1.2.3-rc1'`` -> ``(1, 2, 3, 'rc1')``; raises ConfigError for anything else."""
+    m = _SEMVER.match(str(text))
+    if not m:
+        raise ConfigError(f"Expected a semantic version such as '1.0.0' but received: '{text}'")
+    return int(m[1]), int(m[2]), int(m[3]), m[4] or ""
+
+
+def _newer(a: str, b: str) -> bool:
+    """True if version ``a`` is later than ``b`` (a pre-release precedes its release)."""
+    pa, pb = parse_version(a), parse_version(b)
+    if pa[:3] != pb[:3]:
+        return pa[:3] > pb[:3]
+    return (pa[3] == "" and pb[3] != "") or (pa[3] != "" and pb[3] != "" and pa[3] > pb[3])
+
+
+@dataclass(frozen=True)
+class VersionIssue:
+    """One problem with an entry's version, changelog or recorded hash."""
+
+    id: str
+    source: str
+    message: str
+
+    def format_message(self) -> str:
+        return f"{self.source}: {self.id}: {self.message}"
+
+
+def record(models: Iterable[Spacetime], root: str | Path | None = None) -> dict:
+    """The version record of ``models``: id -> version, physics hash and file (relative to ``root``)."""
+    entries = {}
+    for m in models:
+        file = Path(m.source)
+        if root is not None:
+            try:
+                file = file.resolve().relative_to(Path(root).resolve())
+            except ValueError:
+                pass
+        entries[m.id] = {"version": m.version, "physics": physics_hash(m), "file": file.as_posix()}
+    return {"generator": "texgen", "format": 1, "entries": dict(sorted(entries.items()))}
+
+
+def load_record(path: str | Path) -> dict:
+    """Read a stored record; a missing file is an empty record, a damaged one a ConfigError."""
+    p = Path(path)
+    if not p.is_file():
+        return {"generator": "texgen", "format": 1, "entries": {}}
+    try:
+        data = json.loads(p.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise ConfigError(f"Cannot read the version record: {exc}", Location(str(p))) from None
+    entries = data.get("entries") if isinstance(data, dict) else None
+    if not isinstance(entries, dict) or not all(
+            isinstance(v, dict) and isinstance(v.get("version"), str) and isinstance(v.get("physics"), str)
+            for v in entries.values()):
+        raise ConfigError("Expected a version record with 'entries': {id: {version, physics}} but received "
+                          "something else", Location(str(p)))
+    return data
+
+
+def check_versions(models: Iterable[Spacetime], stored: dict | None = None) -> list[VersionIssue]:
+    """Problems with versions: no changelog entry for the version, physics changed without a bump.
+
+    Parameters
+    ----------
+    models:
+        Loaded entries.
+    stored:
+        A record from :func:`load_record` (``None``: only the changelogs are checked).
+    """
+    issues = []
+    known = (stored or {}).get("entries", {})
+    for m in models:
+        def issue(msg: str) -> None:
+            issues.append(VersionIssue(m.id, m.source, msg))
+
+        if m.version not in dict(m.changelog):
+            issue(f"version {m.version} has no changelog entry")
+        old = known.get(m.id)
+        if old is None:
+            if stored is not None:
+                issue("not in the version record (run 'texgen library --record' to add it)")
+            continue
+        now = physics_hash(m)
+        try:
+            newer = _newer(m.version, old["version"])
+        except ConfigError:
+            newer = True  # a malformed version is reported by the schema already
+        if now != old["physics"] and m.version == old["version"]:
+            issue(f"physics changed but version not bumped (still {m.version}; "
+                  f"hash {old['physics'][:12]} -> {now[:12]})")
+        elif m.version != old["version"] and not newer:
+            issue(f"version {m.version} is lower than the recorded {old['version']}")
+        elif now == old["physics"] and m.version != old["version"]:
+            pass  # a version bump for prose or claims alone is allowed
+    return issues
+
+
+# ---------------------------------------------------------------------------- diff
+
+DERIVED = ("inverse", "determinant", "christoffel", "riemann_down", "ricci", "ricci_scalar",
+           "einstein", "einstein_mixed", "weyl", "invariants")
+"""Keys of the results (:func:`texgen.report.build_results`) that a diff compares."""
+
+
+@dataclass(frozen=True)
+class ComponentChange:
+    """One derived (or metric) component that differs between two versions."""
+
+    quantity: str
+    """``metric``, ``christoffel``, ``ricci``, ``invariants``, ..."""
+    key: str
+    """Component by coordinate names (``r,t,t``) or invariant name."""
+    old: str
+    new: str
+    difference: str
+    """new − old in the engine's canonical form, as texgen-parsable text."""
+
+
+@dataclass(frozen=True)
+class SpacetimeDiff:
+    """What changed between two versions of one spacetime definition."""
+
+    old_version: str
+    new_version: str
+    old_hash: str
+    new_hash: str
+    definition: tuple[str, ...]
+    """Changed keys of the definition (``coordinates``, ``parameters.a.range``, ``title``, ...)."""
+    components: tuple[ComponentChange, ...]
+    """Metric and derived components that differ."""
+    comparable: bool = True
+    """False when the coordinates differ, so components cannot be matched."""
+
+    @property
+    def physics_changed(self) -> bool:
+        return self.old_hash != self.new_hash
+
+
+def _flat(prefix: str, value: Any, out: dict) -> None:
+    if isinstance(value, dict):
+        for k, v in value.items():
+            _flat(f"{prefix}.{k}" if prefix else str(k), v, out)
+    else:
+        out[prefix] = value
+
+
+def _definition_changes(old: Spacetime, new: Spacetime) -> list[str]:
+    a, b = {}, {}
+    _flat("", physics_data(old), a)
+    _flat("", physics_data(new), b)
+    prose = ("title", "version", "description", "references", "notes", "family")
+    for key in prose:
+        a[key], b[key] = getattr(old, key), getattr(new, key)
+    a["changelog"], b["changelog"] = list(old.changelog), list(new.changelog)
+    a["definitions"] = {d.name: sp.srepr(d.expression) for d in old.definitions}
+    b["definitions"] = {d.name: sp.srepr(d.expression) for d in new.definitions}
+    for s in old.sections:
+        a[s.key] = s.data
+    for s in new.sections:
+        b[s.key] = s.data
+    return sorted(k for k in set(a) | set(b) if a.get(k) != b.get(k))
+
+
+def _component_maps(results: dict) -> dict[str, dict[str, str]]:
+    out: dict[str, dict[str, str]] = {"metric": dict(results.get("metric", {}))}
+    for q in DERIVED:
+        v = results.get(q)
+        if isinstance(v, dict):
+            out[q] = {k: x for k, x in v.items() if isinstance(x, str)}
+        elif isinstance(v, str):
+            out[q] = {"": v}
+    return out
+
+
+def diff_results(old: Spacetime, old_results: dict, new: Spacetime, new_results: dict,
+                 curvature=None) -> SpacetimeDiff:
+    """Compare two versions through their results dicts (fresh or from the cache).
+
+    Every component text is read back in the new model's names
+    (:func:`texgen.expressions.parse_expression`), and new − old is brought to
+    the engine's canonical form with ``curvature`` (a Curvature of ``new``).
+    """
+    from .derive import Curvature
+    from .errors import ExpressionError
+    from .expressions import expression_to_text, parse_expression
+    from .schema import namespace
+
+    cv = curvature or Curvature(new)
+    ns = namespace(new)
+    comparable = [c.name for c in old.coordinates] == [c.name for c in new.coordinates]
+    changes: list[ComponentChange] = []
+    if comparable:
+        a, b = _component_maps(old_results), _component_maps(new_results)
+        for q in ["metric", *DERIVED]:
+            qa, qb = a.get(q, {}), b.get(q, {})
+            for key in sorted(set(qa) | set(qb)):
+                ta, tb = qa.get(key, "0"), qb.get(key, "0")
+                if ta == tb:
+                    continue
+                try:
+                    d = parse_expression(tb, ns) - parse_expression(ta, ns)
+                except ExpressionError:
+                    changes.append(ComponentChange(q, key, ta, tb, "(names differ; not comparable)"))
+                    continue
+                if not cv.is_zero(d):
+                    changes.append(ComponentChange(q, key, ta, tb, expression_to_text(cv.canonical(d))))
+    return SpacetimeDiff(old.version, new.version, physics_hash(old), physics_hash(new),
+                         tuple(_definition_changes(old, new)), tuple(changes), comparable)
+
+
+def diff_models(old: Spacetime, new: Spacetime, *, cache=None) -> SpacetimeDiff:
+    """Derive both versions (or take them from ``cache``) and compare them."""
+    from . import library
+
+    old_results = library.entry_results(old, cache=cache)
+    new_cv_box: list = []
+    new_results = library.entry_results(new, cache=cache, keep=new_cv_box)
+    return diff_results(old, old_results, new, new_results, curvature=new_cv_box[0] if new_cv_box else None)
+
+
+def git_revision_text(path: str | Path, rev: str) -> str:
+    """The file ``path`` as it was at git revision ``rev`` (``git show REV:path``, no shell)."""
+    import subprocess
+
+    p = Path(path).resolve()
+    try:
+        top = subprocess.run(["git", "rev-parse", "--show-toplevel"], cwd=p.parent, capture_output=True,
+                             text=True, check=True, stdin=subprocess.DEVNULL).stdout.strip()
+        rel = p.relative_to(Path(top).resolve()).as_posix()
+        proc = subprocess.run(["git", "show", f"{rev}:{rel}"], cwd=top, capture_output=True,
+                              stdin=subprocess.DEVNULL)
+    except (OSError, ValueError, subprocess.CalledProcessError) as exc:
+        raise ConfigError(f"Cannot read {path} from git: {exc}") from None
+    if proc.returncode != 0:
+        msg = proc.stderr.decode("utf-8", "replace").strip().splitlines()
+        raise ConfigError(f"Cannot read {path} at revision '{rev}': {msg[-1] if msg else 'git failed'}")
+    return proc.stdout.decode("utf-8", "replace")
