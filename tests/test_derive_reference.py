@@ -96,8 +96,14 @@ def numeric_riemann(g, coords, point, values):
     n = len(coords)
     gf = sp.lambdify(coords, g.subs(values), "mpmath")
 
+    seen: dict[tuple, mpmath.matrix] = {}
+
     def metric(x):
-        return mpmath.matrix(gf(*x))
+        # mpmath.diff asks for the same points for every component: evaluate each once
+        key = tuple(x)
+        if key not in seen:
+            seen[key] = mpmath.matrix(gf(*x))
+        return seen[key]
 
     def christoffel(x):
         gx = metric(x)
