@@ -108,7 +108,8 @@ class ResultCache:
         from .render import write_atomic
 
         data = {"format": FORMAT, "key": key, "checksum": _digest(payload), "payload": payload}
-        text = json.dumps(data, sort_keys=True, ensure_ascii=False, separators=(",", ":"))
+        # key order is kept: the JSON report is written in the order the results were built
+        text = json.dumps(data, ensure_ascii=False, separators=(",", ":"))
         return write_atomic(self._file(key), text, own_check=False)
 
     def _files(self) -> list[Path]:
