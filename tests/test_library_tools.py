@@ -6,6 +6,7 @@ from pathlib import Path
 
 import pytest
 
+from texgen import cli
 from texgen.api import load_spacetime
 from texgen.errors import ConfigError
 from texgen.library import check_relations, claims_status, load_entries
@@ -120,3 +121,102 @@ def test_every_library_relation_holds():
 ])
 def test_claims_status(results, text):
     assert claims_status(results) == text
+
+
+# ------------------------------------------------------------------ command line
+
+def _copy(tmp_path, *rels) -> Path:
+    folder = tmp_path / "lib"
+    for rel in rels:
+        (folder / rel).parent.mkdir(parents=True, exist_ok=True)
+        shutil.copy(LIB / rel, folder / rel)
+    return folder
+
+
+def test_library_lists_entries(tmp_path, capsys):
+    folder = _copy(tmp_path, "kerr/kerr.yaml", "lower_dimensions/two_sphere.yaml")
+    assert cli.main(["library", str(folder)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0].split() == ["ID", "VERSION", "DIM", "FAMILY", "CLAIMS", "TITLE"]
+    assert [x.split()[0] for x in lines[1:]] == ["kerr", "two-sphere"]
+    kerr = lines[1].split()
+    assert kerr[1:4] == ["1.0.0", "4", "kerr"]
+
+
+def test_library_check_passes_on_the_shipped_library(capsys):
+    assert cli.main(["library", "--check", str(LIB)]) == 0
+    assert capsys.readouterr().out.splitlines()[-1].endswith(" relations, 0 problem(s)")
+
+
+def test_library_check_flags_unbumped_physics_and_broken_relation(tmp_path, capsys):
+    folder = _copy(tmp_path, "kerr/kerr.yaml", "kerr/kerr_newman.yaml")
+    assert cli.main(["library", "--record", str(folder)]) == 0
+    assert cli.main(["library", "--check", str(folder)]) == 0
+    kerr = folder / "kerr" / "kerr.yaml"
+    kerr.write_text(kerr.read_text(encoding="utf-8").replace("Delta: r^2 - 2*M*r + a^2", "Delta: r^2 - M*r + a^2"),
+                    encoding="utf-8")
+    capsys.readouterr()
+    assert cli.main(["library", "--check", str(folder)]) == 2
+    err = capsys.readouterr().err.splitlines()
+    assert err[0].startswith(f"error: {kerr}: relations[0]: 'kerr-newman' with Q = 0 is not this metric: ")
+    assert err[1].startswith(f"error: {kerr}: kerr: physics changed but version not bumped (still 1.0.0; hash ")
+    assert len(err) == 2
+
+
+def test_diff_of_two_files_exits_1_when_the_physics_changed(tmp_path, capsys):
+    old = tmp_path / "old.yaml"
+    new = tmp_path / "new.yaml"
+    text = SCHW.read_text(encoding="utf-8")
+    old.write_text(text, encoding="utf-8")
+    new.write_text(text.replace("title: ", "title: Renamed ", 1), encoding="utf-8")
+    assert cli.main(["diff", str(old), str(new), "--no-cache"]) == 0
+    out = capsys.readouterr().out.splitlines()
+    assert out[1].startswith("physics: unchanged")
+    assert out[2:] == ["definition: title", "components: no metric or derived component differs"]
+    assert cli.main(["diff", str(SCHW), str(LIB / "charged" / "reissner_nordstrom.yaml"), "--no-cache"]) == 1
+    out = capsys.readouterr().out
+    assert "  [t,t] new - old = -Q**2/r**2" in out
+    assert "invariants:\n" in out
+
+
+def test_diff_needs_two_files_or_two_revisions(capsys):
+    assert cli.main(["diff", str(SCHW)]) == 2
+    assert capsys.readouterr().err == "error: Expected OLD.yaml NEW.yaml but received 1 file(s)\n"
+    assert cli.main(["diff", str(SCHW), "--rev", "HEAD"]) == 2
+    assert "Expected one FILE with two --rev" in capsys.readouterr().err
+
+
+def test_diff_between_git_revisions(tmp_path, capsys):
+    """Two commits of one file in a scratch repository, read back with git show."""
+    import subprocess
+
+    def git(*a):
+        subprocess.run(["git", *a], cwd=tmp_path, check=True, capture_output=True,
+                       env={"GIT_AUTHOR_NAME": "t", "GIT_AUTHOR_EMAIL": "t@t", "GIT_COMMITTER_NAME": "t",
+                            "GIT_COMMITTER_EMAIL": "t@t", "PATH": __import__("os").environ["PATH"],
+                            "HOME": str(tmp_path)})
+
+    git("init", "-q")
+    f = tmp_path / "s.yaml"
+    text = SCHW.read_text(encoding="utf-8")
+    f.write_text(text, encoding="utf-8")
+    git("add", "s.yaml")
+    git("commit", "-q", "-m", "one")
+    f.write_text(text.replace("f: 1 - 2*M/r", "f: 1 - 2*M/r + M^2/r^2"), encoding="utf-8")
+    assert "f: 1 - 2*M/r + M^2/r^2" in f.read_text(encoding="utf-8")
+    git("commit", "-q", "-am", "two")
+    assert cli.main(["diff", str(f), "--rev", "HEAD~1", "--rev", "HEAD", "--no-cache"]) == 1
+    out = capsys.readouterr().out
+    assert "  [t,t] new - old = -M**2/r**2" in out
+    assert cli.main(["diff", str(f), "--rev", "HEAD~5", "--rev", "HEAD", "--no-cache"]) == 2
+    assert "at revision 'HEAD~5'" in capsys.readouterr().err
+
+
+def test_cache_info_and_clear(tmp_path, capsys):
+    d = tmp_path / "c"
+    (d / "ab").mkdir(parents=True)
+    (d / "ab" / "x.json").write_text("{}", encoding="utf-8")
+    assert cli.main(["cache", "info", "--cache-dir", str(d)]) == 0
+    assert capsys.readouterr().out == f"{d}: 1 entries, 0.0 KiB\n"
+    assert cli.main(["cache", "clear", "--cache-dir", str(d)]) == 0
+    assert capsys.readouterr().out == f"removed 1 entries from {d}\n"

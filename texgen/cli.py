@@ -83,6 +83,7 @@ def build_parser() -> argparse.ArgumentParser:
     from . import _commands  # the build/check/... subcommands, kept apart to keep this file thin
 
     _commands.register(sub)
+    from . import _library_commands; _library_commands.register(sub)  # noqa: E702
     return parser
 
 
