@@ -510,15 +510,18 @@ def index_context(entries: list[dict], edges: list[dict]) -> dict:
     rows = []
     for e in sorted(entries, key=lambda e: e["id"]):
         link = next((e["reports"][f] for f in ("md", "tex", "json") if f in e["reports"]), "")
-        rows.append({"id": e["id"], "title": e["title"], "version": e["version"], "dimension": e["dimension"],
+        error = " ".join((e["error"] or "").split())  # one line: it sits in a table cell
+        rows.append({"id": e["id"], "title": e["title"], "version": e["version"] or "-",
+                     "dimension": e["dimension"] if not error else "-",
                      "family": e["family"] or "-", "claims": e["claims"] or "-", "link": link,
-                     "reports": [e["reports"][f] for f in sorted(e["reports"])], "error": e["error"] or ""})
-    known = {e["id"] for e in entries}
+                     "reports": [e["reports"][f] for f in sorted(e["reports"])], "error": error})
+    known = {e["id"] for e in entries if not e["error"]}
     families: dict[str, list[str]] = {}
     for e in rows:
-        families.setdefault(e["family"], []).append(e["id"])
+        if not e["error"]:
+            families.setdefault(e["family"], []).append(e["id"])
     return {"texgen_version": __version__, "entries": rows, "failed": sum(1 for e in rows if e["error"]),
-            "edges": [dict(x, known=x["to"] in known) for x in sorted(edges, key=lambda x: (x["to"], x["from"]))],
+            "edges": [dict(x, known=x["to"] in known) for x in sorted(edges, key=lambda x: (x["from"], x["to"]))],
             "families": [{"name": k, "ids": v} for k, v in sorted(families.items())]}
 
 
