@@ -12,7 +12,7 @@ e_(i) in either signature.
 from __future__ import annotations
 
 import weakref
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import mpmath
 import sympy as sp
@@ -86,6 +86,9 @@ class Analysis:
     curvature_limits: dict
     """Description (``r -> 0``) -> limit of the Kretschmann scalar there."""
     surface_gravities: tuple[sp.Expr | None, ...]
+    """Signed κ per horizon (negative where the lapse squared decreases outwards)."""
+    surface_gravity_forms: tuple[sp.Expr | None, ...]
+    """κ as a function of the radial coordinate at the horizon (a parameter eliminated with H = 0), or None."""
     hawking_temperatures: tuple[sp.Expr | None, ...]
     ctc_regions: dict
     """Periodic coordinate name -> description of where its Killing vector is timelike."""
@@ -181,6 +184,17 @@ def _text_of_region(intervals: list[tuple], var: sp.Symbol, lower_known: bool) -
         else:
             parts.append(f"{expression_to_text(a)} < {var} < {expression_to_text(b)}")
     return " or ".join(parts) if parts else None
+
+
+def _coupling_split(cv, kappa):
+    """``(inner, scale)`` with ``1/kappa = scale/inner``: ``inner`` fits the engine's field, ``scale > 0`` is a constant."""
+    inner, outer = [], []
+    for f in sp.Mul.make_args(kappa):
+        (inner if cv._elem(f) is not None else outer).append(f)
+    scale = 1 / sp.Mul(*outer)
+    if not outer or scale.free_symbols or scale.is_positive is not True:
+        return kappa, sp.S.One
+    return sp.Mul(*inner), scale
 
 
 # ------------------------------------------------------------------ frames
@@ -424,29 +438,90 @@ def _zero_set(f, st, radial, point):
     return [sp.Eq(f, 0, evaluate=False)]
 
 
-def _surface_gravity(st, cv, radial, rh, point):
+def _surface_gravity(st, cv, radial, rh, point, h=None):
+    """Signed κ = ½ ∂_r N² √(g^rr/N²) at the horizon ``rh`` (N² = −1/g^tt, the ZAMO lapse squared).
+
+    κ² is a rational function; coordinates other than the radius must drop out on the
+    horizon (checked at sample values), so they are set to a simple value before ``rh``
+    is substituted. κ < 0 where N² decreases outwards (inner and cosmological horizons).
+    """
     ti = _time_index(st)
     if ti is None or radial is None:
         return None
     sg = _signs(st)
     i = st.coordinate_symbols.index(radial)
     ginv = cv.inverse
-    # Lapse squared N^2 = -1/g^tt (mostly plus); kappa = lim sqrt(g^rr / N^2) d_r N^2 / 2.
-    n2 = cv.canonical(sg[ti] / ginv[ti, ti]) if not cv.is_zero(ginv[ti, ti]) else None
-    if n2 is None or cv.is_zero(n2):
+    if cv.is_zero(ginv[ti, ti]):
+        return None
+    n2 = cv.canonical(sg[ti] / ginv[ti, ti])
+    if cv.is_zero(n2):
         return None
     ratio = cv.canonical(sg[i] * ginv[i, i] / n2)
     dn2 = cv.canonical(sp.diff(n2, radial))
+    others = sorted((dn2.free_symbols | ratio.free_symbols) & set(st.coordinate_symbols) - {radial}, key=str)
+    at_h = {k: v for k, v in point.items()} | {radial: sp.Float(tools.value_at(rh, point) or 0, 30)}
+    sub = {}
+    for x in others:
+        # The value on the horizon must not depend on x: compare three sample values.
+        vals = [tools.value_at(ratio * dn2**2, at_h | {y: sp.Rational(k, 7) for y in others}) for k in (3, 5, 9)]
+        if any(v is None for v in vals) or max(vals) - min(vals) > 1e-12 * (1 + abs(vals[0])):
+            return None
+        for c in (sp.pi / 2, sp.S.One, sp.S.Zero):
+            test = tools.value_at((ratio * dn2**2).xreplace(sub | {x: c}), at_h)
+            if test is not None and abs(test - vals[0]) < 1e-12 * (1 + abs(vals[0])):
+                sub[x] = c
+                break
+        else:
+            return None
     try:
-        val = sp.simplify(sp.Rational(1, 2) * dn2.subs(radial, rh) * sp.sqrt(ratio.subs(radial, rh)))
+        k2 = sp.cancel(sp.together((dn2**2 * ratio).xreplace(sub))) / 4
+        d = sp.cancel(sp.together(dn2.xreplace(sub)))
+        slope = tools.value_at(d.subs(radial, rh), point)
+        form = _on_horizon(st, cv, k2, radial, h)
+        if form is not None:
+            # |u| from the square root: its sign on this horizon is known numerically.
+            at = point | {radial: sp.Float(tools.value_at(rh, point) or 0, 30)}
+            form = form.xreplace({x: x.args[0] if (tools.value_at(x.args[0], at) or 0) >= 0 else -x.args[0]
+                                  for x in form.atoms(sp.Abs)})
+            v = tools.value_at(form, at)
+            if v is not None and slope is not None and (v < 0) != (slope < 0):
+                form = -form
+            form = sp.factor(form)
+            val = form.subs(radial, rh)
+            val = sp.factor(val) if sp.count_ops(val) < 80 else val
+        else:
+            val = sp.sqrt(sp.factor(k2.subs(radial, rh)))
+            val = sp.simplify(val) if sp.count_ops(val) < 200 else val
+            val = val if slope is None or slope >= 0 else -val
     except tools._SOLVE_ERRORS:
         return None
     if val.has(sp.nan, sp.zoo) or set(st.coordinate_symbols) & val.free_symbols:
         return None
-    num = tools.value_at(val, point)
-    if num is None:
+    if tools.value_at(val, point) is None or slope is None:
         return None
-    return -val if num < 0 else val
+    return val, form
+
+
+def _on_horizon(st, cv, k2, radial, h):
+    """√k2 as a function of the horizon radius: a parameter that H = 0 fixes linearly is eliminated."""
+    if h is None:
+        return None
+    for p in st.parameter_symbols:
+        try:
+            poly = sp.Poly(h, p)
+        except tools._SOLVE_ERRORS:
+            continue
+        if poly.degree() != 1:
+            continue
+        sol = sp.cancel(-poly.coeff_monomial(1) / poly.coeff_monomial(p))
+        if p in sol.free_symbols:
+            continue
+        red = sp.factor(sp.cancel(sp.together(k2.xreplace({p: sol}))))
+        out = sp.factor(sp.sqrt(red))
+        if not out.has(sp.sqrt(red)) or not out.has(sp.Pow):
+            return out
+        return sp.powdenest(out, force=False)
+    return None
 
 
 # ------------------------------------------------------------------ the analysis
@@ -483,13 +558,17 @@ def analyse(spacetime, curvature) -> Analysis:
 def _analyse(st, cv) -> Analysis:
     n = st.dimension
     notes: list[str] = []
-    kappa = st.conventions.coupling
     F = cv.field_tensor
-    T = sp.ImmutableMatrix(n, n, [cv.canonical(x / kappa) for x in F])
+    # The algebra works in the engine's exact field, which has no pi: T is computed as
+    # Tw = T / scale with the constant scale > 0 (e.g. 1/(8 pi)) put back at the end.
+    inner, scale = _coupling_split(cv, st.conventions.coupling)
+    Tw = sp.ImmutableMatrix(n, n, [cv.canonical(x / inner) for x in F])
     ginv = cv.inverse
-    Tmix = sp.ImmutableMatrix(n, n, [cv.canonical(sum(ginv[a, c] * T[c, b] for c in range(n)))
-                                     for a in range(n) for b in range(n)])
-    vacuum = all(cv.is_zero(x) for x in T)
+    Twmix = sp.ImmutableMatrix(n, n, [cv.canonical(sum(ginv[a, c] * Tw[c, b] for c in range(n)))
+                                      for a in range(n) for b in range(n)])
+    T = Tw.applyfunc(lambda x: x * scale)
+    Tmix = Twmix.applyfunc(lambda x: x * scale)
+    vacuum = all(cv.is_zero(x) for x in Tw)
     radial = _radial(st)
     ppoint = _param_point(st)
     stand_ins = tools.positive_stand_ins(st)
@@ -506,8 +585,8 @@ def _analyse(st, cv) -> Analysis:
     he_type = "vacuum" if vacuum else "unknown"
     ec: dict = {}
     if e is not None and ti is not None:
-        Tup_t = sum(ginv[ti, a] * ginv[ti, b] * T[a, b] for a in range(n) for b in range(n))
-        comps = _frame_components(st, cv, T, Tup_t, kind, e)
+        Tup_t = sum(ginv[ti, a] * ginv[ti, b] * Tw[a, b] for a in range(n) for b in range(n))
+        comps = _frame_components(st, cv, Tw, Tup_t, kind, e)
         rho = cv.canonical(comps[0, 0])
         diagonal = all(cv.is_zero(comps[i, j]) for i in range(n) for j in range(n) if i != j)
         if diagonal:
@@ -535,7 +614,7 @@ def _analyse(st, cv) -> Analysis:
                 hpoly = sp.Poly(h.xreplace(ppoint), radial)
                 hnum = sorted((float(sp.re(x)) for x in hpoly.nroots(n=30) if abs(sp.im(x)) < 1e-20
                                and (lower is None or float(sp.re(x)) > lower)), reverse=True)
-            except (sp.PolynomialError, tools._SOLVE_ERRORS):
+            except tools._SOLVE_ERRORS:
                 hnum = []
         special = list(horizons) + [sp.Float(x) for x in hnum]
     # Throats of b(r)-type wormholes: where g_rr blows up but no horizon (g_tt stays negative).
@@ -557,7 +636,7 @@ def _analyse(st, cv) -> Analysis:
             notes.append("T_(i)(j) is not diagonal in the frame: principal pressures from its eigenvalues "
                          "at sample points only")
         else:
-            ec, he_type = _nondiagonal_conditions(st, cv, None, radial, special, stand_ins, ppoint, Tmix)
+            ec, he_type = _nondiagonal_conditions(st, cv, None, radial, special, stand_ins, ppoint, Twmix)
             notes.append("no orthonormal frame could be built: energy conditions from the eigenvalues of "
                          "T^a_b at sample points only")
 
@@ -602,8 +681,11 @@ def _analyse(st, cv) -> Analysis:
             except tools._SOLVE_ERRORS:
                 pass
 
-    kappas = tuple(_surface_gravity(st, cv, radial, r, ppoint) for r in horizons)
-    temps = tuple(None if k is None else k / (2 * sp.pi) for k in kappas)
+    kforms = [_surface_gravity(st, cv, radial, r, ppoint, h) for r in horizons]
+    kappas = tuple(None if k is None else k[0] for k in kforms)
+    kappa_forms = tuple(None if k is None else k[1] for k in kforms)
+    temps = tuple(None if k is None else (k if (tools.value_at(k, ppoint) or 0) >= 0 else -k) / (2 * sp.pi)
+                  for k in kappas)
 
     # Causality.
     ctc: dict = {}
@@ -665,13 +747,19 @@ def _analyse(st, cv) -> Analysis:
                              else f"static observers cannot exist for {bad}")
         omega2, orbit_rate, photon, isco = _orbits(st, cv, radial, ppoint, horizons, hnum)
 
+    # Back from Tw to T: positive constant factors change no sign, so verdicts stand.
+    if scale != 1:
+        comps = comps.applyfunc(lambda x: x * scale) if comps is not None else None
+        rho = rho * scale if rho is not None else None
+        ps = tuple(x * scale for x in ps)
+        ec = {k: replace(v, inequalities=tuple(x * scale for x in v.inequalities)) for k, v in ec.items()}
     return Analysis(
         stress_energy=T, stress_energy_mixed=Tmix, frame=e, frame_kind=kind, frame_components=comps,
         energy_density=rho, pressures=ps, hawking_ellis_type=he_type, energy_conditions=ec,
         radial=radial, horizon_function=h, horizons=tuple(horizons), horizons_numeric=tuple(hnum),
         parameter_point=ppoint, naked_condition=naked, ergosurfaces=tuple(ergos),
         curvature_singularities=tuple(curv_sing), coordinate_singularities=tuple(coord_sing),
-        curvature_limits=limits, surface_gravities=kappas, hawking_temperatures=temps, ctc_regions=ctc,
+        curvature_limits=limits, surface_gravities=kappas, surface_gravity_forms=kappa_forms, hawking_temperatures=temps, ctc_regions=ctc,
         null_directions=nulls, cone_tilt=tilt, clock_rate=clock, static_region=static_region,
         orbit_angular_velocity=omega2, orbit_clock_rate=orbit_rate, photon_sphere=photon, isco=isco,
         notes=tuple(notes))
