@@ -7,6 +7,7 @@ from __future__ import annotations
 import math
 import random
 
+import mpmath
 import sympy as sp
 
 from .sampling import function_values, sample_point
@@ -254,3 +255,32 @@ def negative_region(expr: sp.Expr, var: sp.Symbol, point: dict, lower: float | N
         if v is not None and v < 0:
             out.append((ra, rb))
     return out
+
+
+def evaluator(exprs: list[sp.Expr], dps: int = 30):
+    """A function ``point -> [mpf]`` (or None) for ``exprs``, compiled once per set of point keys.
+
+    Points map symbols, and free functions with their derivatives, to numbers; the
+    function atoms become plain arguments, so lambdify (mpmath) sees only symbols.
+    """
+    cache: dict = {}
+
+    def values(point: dict):
+        keys = tuple(point)
+        f = cache.get(keys)
+        if f is None:
+            dummies = {k: sp.Dummy() for k in keys if not isinstance(k, sp.Symbol)}
+            f = sp.lambdify([dummies.get(k, k) for k in keys], [e.xreplace(dummies) for e in exprs],
+                            modules="mpmath")
+            cache[keys] = f
+        mpmath.mp.dps = dps
+        try:
+            out = f(*[mpmath.mpf(sp.Float(v, dps + 5)) for v in point.values()])
+            out = [mpmath.mpf(x) if not isinstance(x, mpmath.mpc) else x for x in out]
+        except (TypeError, ValueError, ZeroDivisionError, NameError, OverflowError):
+            return None
+        if any(isinstance(x, mpmath.mpc) and abs(x.imag) > 1e-20 * (1 + abs(x.real)) for x in out):
+            return None
+        return [mpmath.re(x) for x in out]
+
+    return values

@@ -416,9 +416,16 @@ def _naked_condition(h, radial):
     return sp.StrictGreaterThan(sp.Add(*pos_terms), sp.Add(*neg_terms), evaluate=False)
 
 
-def _factors(expr):
+def _factors(expr, cv=None):
     """Distinct non-constant factors of the denominator (over the exact normal form)."""
-    num, den = sp.fraction(sp.factor(sp.together(expr)))
+    x = cv._elem(expr) if cv is not None else None
+    if x is not None and hasattr(cv.algebra, "denominator_parts"):
+        # The engine keeps denominators factored: no sympy factor() of a large numerator.
+        _, den = cv.algebra.denominator_parts(x)
+    elif sp.count_ops(expr) > tools.MAX_OPS:
+        return []
+    else:
+        num, den = sp.fraction(sp.factor(sp.together(expr)))
     out = []
     for f in sp.Mul.make_args(den):
         base, _ = f.as_base_exp()
@@ -659,13 +666,13 @@ def _analyse(st, cv) -> Analysis:
     except DerivationError as exc:
         K = None
         notes.append(f"Kretschmann scalar not available: {exc.message}")
-    kfactors = _factors(K) if K is not None else []
+    kfactors = _factors(K, cv) if K is not None else []
     for f in kfactors:
         curv_sing.extend(_zero_set(f, st, radial, ppoint))
     seen = list(kfactors)
     for m in (st.metric, ginv):
         for x in m:
-            for f in _factors(cv.canonical(x)):
+            for f in _factors(cv.canonical(x), cv):
                 if any(cv.is_zero(f - y) or cv.is_zero(f + y) for y in seen):
                     continue
                 seen.append(f)
@@ -801,8 +808,9 @@ def _nondiagonal_conditions(st, cv, comps, radial, special, stand_ins, ppoint, T
     if Tm is not None or comps is not None:
         types = set()
         eigen_fail = {name: None for name in CONDITIONS}
+        evaluate = tools.evaluator(list(comps if comps is not None else Tm))
         for pt in points[:8]:
-            res = _eigen_at(st, cv, comps, Tm, pt)
+            res = _eigen_at(st, cv, comps, Tm, pt, evaluate)
             if res is None:
                 types.add("?")
                 continue
@@ -829,23 +837,19 @@ def _nondiagonal_conditions(st, cv, comps, radial, special, stand_ins, ppoint, T
     return out, he
 
 
-def _eigen_at(st, cv, comps, Tm, pt):
+def _eigen_at(st, cv, comps, Tm, pt, evaluate):
     """Hawking–Ellis type, ρ and p_i at one point from T^(a)_(b) (mpmath, 30 digits)."""
     n = st.dimension
     mpmath.mp.dps = 30
-    try:
-        if comps is not None:
-            eta = [-1] + [1] * (n - 1)
-            M = mpmath.matrix(n, n)
-            for a in range(n):
-                for b in range(n):
-                    M[a, b] = mpmath.mpf(str(sp.N(comps[a, b].xreplace(pt), 30))) * eta[a]
-        else:
-            M = mpmath.matrix([[mpmath.mpf(str(sp.N(Tm[a, b].xreplace(pt), 30))) for b in range(n)]
-                               for a in range(n)])
-            eta = None
-    except (TypeError, ValueError):
+    source = comps if comps is not None else Tm
+    vals = evaluate(pt)
+    if vals is None:
         return None
+    eta = [-1] + [1] * (n - 1) if comps is not None else None
+    M = mpmath.matrix(n, n)
+    for a in range(n):
+        for b in range(n):
+            M[a, b] = vals[a * n + b] * (eta[a] if eta else 1)
     vals, vecs = mpmath.eig(M)
     if any(abs(mpmath.im(v)) > 1e-15 * (1 + abs(v)) for v in vals):
         return "not I", None, None
