@@ -96,18 +96,63 @@ def written_by_texgen(path: Path) -> bool:
     return any(head.startswith(m) for m in MARKERS)
 
 
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:
+        return True  # exists but belongs to someone else
+    return True
+
+
+def remove_stale_temporaries(path: str | Path) -> list[Path]:
+    """Delete temporaries of ``path`` left by a writer that was killed (SIGKILL) mid-write.
+
+    Only files named like texgen's own temporaries whose writer process no longer
+    exists are removed; POSIX only (elsewhere a pid cannot be probed safely).
+    """
+    p = Path(path)
+    if os.name != "posix":
+        return []
+    head = f".{p.name}."
+    removed = []
+    try:
+        names = os.listdir(p.parent)
+    except OSError:
+        return []
+    for name in names:
+        if not (name.startswith(head) and name.endswith(".tmp")):
+            continue
+        parts = name[len(head):].split(".")  # <pid>.<mkstemp's random letters>.tmp, nothing else
+        if len(parts) != 3 or not parts[0].isdigit():
+            continue
+        pid = int(parts[0])
+        if pid == os.getpid() or _alive(pid):
+            continue
+        try:
+            os.unlink(p.parent / name)
+            removed.append(p.parent / name)
+        except OSError:
+            pass
+    return removed
+
+
 def write_atomic(path: str | Path, text: str | bytes, *, force: bool = False, own_check: bool = True) -> Path:
     """Write ``text`` to ``path`` through a temporary file and an atomic rename.
 
     An interrupted write leaves the previous file intact. A file that texgen
-    did not write is never overwritten unless ``force``.
+    did not write is never overwritten unless ``force``. A writer killed outright
+    (SIGKILL) cannot clean up; its temporary is removed by the next write of ``path``.
     """
     p = Path(path)
     if p.exists() and own_check and not force and not written_by_texgen(p):
         raise RenderError(f"Refusing to overwrite {p}: texgen did not write it", hint="use --force to overwrite")
     p.parent.mkdir(parents=True, exist_ok=True)
     data = text.encode("utf-8") if isinstance(text, str) else text
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
+    remove_stale_temporaries(p)
+    # The writer's pid in the name lets a later write tell a killed writer's leftover from a live one.
+    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.{os.getpid()}.", suffix=".tmp", dir=p.parent)
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
