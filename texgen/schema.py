@@ -910,9 +910,13 @@ def _numerical_checks(b: _Builder, model: Spacetime) -> None:
     mismatch = None
     for pt in points:
         fvals = sampling.function_values(g, rng)
+        # Floats, not the exact rationals: an exact Rational**Rational such as
+        # t**(2*p1) at a sampled point makes sympy factor huge integers.
+        fpt = {k: sp.Float(v, 30) for k, v in pt.items()}
+        ffv = {k: sp.Float(v, 30) for k, v in fvals.items()}
         try:
             with mpmath.workdps(30):
-                num = [[complex(sp.N(e.xreplace(fvals).xreplace(pt), 30)) for e in row] for row in g.tolist()]
+                num = [[complex(sp.N(e.xreplace(ffv).xreplace(fpt), 30)) for e in row] for row in g.tolist()]
                 if any(abs(z.imag) > 1e-20 for row in num for z in row):
                     continue
                 m = mpmath.matrix([[z.real for z in row] for row in num])
