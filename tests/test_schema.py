@@ -215,3 +215,26 @@ def test_bad_input_never_raises_anything_else(write):
         except TexgenError:
             continue
         pytest.fail(f"{path.name} was accepted")
+
+
+def test_rational_powers_of_a_coordinate_validate_quickly():
+    # Kasner metric in its t-form (E. Kasner, Am. J. Math. 43, 217 (1921)); exact rational
+    # sample points once made sympy evaluate t**(2*p1) exactly and hang. A hang guard, not a speed target.
+    import time
+
+    from texgen.api import load_spacetime_text
+
+    text = """
+id: kasner-t
+coordinates: [{name: t, range: "t > 0"}, x, y, z]
+parameters:
+  p1: {range: "-1 < p1 < 1"}
+  p2: {range: "-1 < p2 < 1"}
+  p3: {range: "-1 < p3 < 1"}
+metric:
+  line_element: -dt^2 + t^(2*p1) dx^2 + t^(2*p2) dy^2 + t^(2*p3) dz^2
+"""
+    start = time.monotonic()
+    model = load_spacetime_text(text, "kasner.yaml")
+    assert model.dimension == 4
+    assert time.monotonic() - start < 20
