@@ -34,7 +34,7 @@ from fuzz.mutate import SEEDS, Hang, mutant, run_target  # noqa: E402
 def _signature(exc: BaseException) -> str:
     """Exception class plus the innermost frame inside texgen (else the innermost frame)."""
     frames = traceback.extract_tb(exc.__traceback__)
-    ours = [f for f in frames if "/texgen/" in f.filename.replace("\\", "/")]
+    ours = [f for f in frames if "/texgen/" in f.filename.replace("\\", "/") or "/fuzz/" in f.filename]
     f = (ours or frames or [None])[-1]
     where = f"{Path(f.filename).name}:{f.lineno} in {f.name}" if f else "?"
     return f"{type(exc).__name__} at {where}"
@@ -59,7 +59,14 @@ def main(argv: list[str] | None = None) -> int:
     while time.perf_counter() - start < args.seconds:
         name = names[seed % len(names)]
         rounds = 1 + (seed // len(names)) % args.max_rounds
-        data = mutant(name, seed, rounds)
+        try:
+            data = mutant(name, seed, rounds)
+        except Exception as exc:  # noqa: BLE001 - a defect of the harness, not of texgen: report, go on
+            outcomes["HARNESS"] += 1
+            failures.setdefault(f"harness: {_signature(exc)}", {"count": 0, "replay": [name, seed, rounds],
+                                "message": f"{type(exc).__name__}: {exc}"[:300]})["count"] += 1
+            seed += 1
+            continue
         try:
             out = run_target(data, source=f"{name}#{seed}", hang_seconds=args.hang)
             outcomes[out.result] += 1

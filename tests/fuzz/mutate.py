@@ -82,14 +82,21 @@ def _line_ops(data: bytes, rng: random.Random) -> bytes:
     return b"\n".join(lines)
 
 
-def _paths(tree, prefix=()):
-    yield prefix
-    if isinstance(tree, dict):
-        for k, v in tree.items():
-            yield from _paths(v, prefix + (k,))
-    elif isinstance(tree, list):
-        for i, v in enumerate(tree):
-            yield from _paths(v, prefix + (i,))
+def _paths(tree, limit: int = 5000) -> list[tuple]:
+    """Key paths into ``tree``, each container visited once: YAML aliases can make it cyclic or huge."""
+    out: list[tuple] = []
+    seen: set[int] = set()
+    stack = [((), tree)]
+    while stack and len(out) < limit:
+        prefix, node = stack.pop()
+        out.append(prefix)
+        if isinstance(node, (dict, list)):
+            if id(node) in seen:
+                continue
+            seen.add(id(node))
+            items = node.items() if isinstance(node, dict) else enumerate(node)
+            stack.extend((prefix + (k,), v) for k, v in items)
+    return out
 
 
 def _value(rng: random.Random, depth: int = 0):
@@ -113,7 +120,7 @@ def _tree_ops(data: bytes, rng: random.Random) -> bytes:
     """Mutate the parsed document (rename, delete, replace, insert keys and values) and dump it again."""
     try:
         tree = yaml.safe_load(data)
-    except yaml.YAMLError:
+    except (yaml.YAMLError, RecursionError):
         return _byte_ops(data, rng)
     if not isinstance(tree, (dict, list)):
         return yaml.safe_dump(_value(rng), allow_unicode=True).encode("utf-8")
@@ -134,7 +141,10 @@ def _tree_ops(data: bytes, rng: random.Random) -> bytes:
         parent.insert(last, _value(rng))
     else:
         parent[last] = _value(rng)
-    return yaml.safe_dump(tree, allow_unicode=True, sort_keys=False, width=10**6).encode("utf-8")
+    try:
+        return yaml.safe_dump(tree, allow_unicode=True, sort_keys=False, width=10**6).encode("utf-8")
+    except (yaml.YAMLError, RecursionError):  # a cyclic tree with a key changed may not dump
+        return _byte_ops(data, rng)
 
 
 OPERATORS = (_byte_ops, _line_ops, _tree_ops)
