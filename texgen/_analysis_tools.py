@@ -267,13 +267,18 @@ def evaluator(exprs: list[sp.Expr], dps: int = 30):
 
     def values(point: dict):
         keys = tuple(point)
-        f = cache.get(keys)
-        if f is None:
+        if keys not in cache:
             dummies = {k: sp.Dummy() for k in keys if not isinstance(k, sp.Symbol)}
-            f = sp.lambdify([dummies.get(k, k) for k in keys], [e.xreplace(dummies) for e in exprs],
-                            modules="mpmath")
-            cache[keys] = f
+            try:
+                cache[keys] = sp.lambdify([dummies.get(k, k) for k in keys],
+                                          [e.xreplace(dummies) for e in exprs], modules="mpmath")
+            except Exception:  # noqa: BLE001 - sympy's printers raise many kinds; evaluate point-wise then
+                cache[keys] = None
+        f = cache[keys]
         mpmath.mp.dps = dps
+        if f is None:
+            vals = [value_at(e, point, dps) for e in exprs]
+            return None if any(v is None for v in vals) else [mpmath.mpf(v) for v in vals]
         try:
             out = f(*[mpmath.mpf(sp.Float(v, dps + 5)) for v in point.values()])
             out = [mpmath.mpf(x) if not isinstance(x, mpmath.mpc) else x for x in out]

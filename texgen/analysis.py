@@ -16,6 +16,8 @@ from dataclasses import dataclass, field, replace
 
 import mpmath
 import sympy as sp
+from mpmath.libmp import NoConvergence
+from sympy.polys.polyerrors import BasePolynomialError
 
 from . import _analysis_tools as tools
 from .errors import ConfigError, DerivationError, Location
@@ -83,6 +85,8 @@ class Analysis:
     """Equations (sympy ``Eq``) where the Kretschmann scalar's denominator vanishes."""
     coordinate_singularities: tuple[sp.Basic, ...]
     """Equations where a metric component blows up while the invariants stay finite."""
+    parameter_degeneracies: tuple[sp.Basic, ...]
+    """Equations in the parameters alone where a curvature or metric denominator vanishes (no place in spacetime)."""
     curvature_limits: dict
     """Description (``r -> 0``) -> limit of the Kretschmann scalar there."""
     surface_gravities: tuple[sp.Expr | None, ...]
@@ -667,8 +671,14 @@ def _analyse(st, cv) -> Analysis:
         K = None
         notes.append(f"Kretschmann scalar not available: {exc.message}")
     kfactors = _factors(K, cv) if K is not None else []
+    coords = set(st.coordinate_symbols)
+    degenerate: list = []
     for f in kfactors:
-        curv_sing.extend(_zero_set(f, st, radial, ppoint))
+        if f.free_symbols & coords:
+            curv_sing.extend(_zero_set(f, st, radial, ppoint))
+        else:
+            # No coordinate: a value of the parameters where the family degenerates, not a place.
+            degenerate.append(sp.Eq(f, 0, evaluate=False))
     seen = list(kfactors)
     for m in (st.metric, ginv):
         for x in m:
@@ -676,7 +686,10 @@ def _analyse(st, cv) -> Analysis:
                 if any(cv.is_zero(f - y) or cv.is_zero(f + y) for y in seen):
                     continue
                 seen.append(f)
-                coord_sing.extend(_zero_set(f, st, radial, ppoint))
+                if f.free_symbols & coords:
+                    coord_sing.extend(_zero_set(f, st, radial, ppoint))
+                else:
+                    degenerate.append(sp.Eq(f, 0, evaluate=False))
     if K is not None and radial is not None:
         lower = _lower(st, radial)
         if lower is not None and K.count_ops() < tools.MAX_OPS:
@@ -726,7 +739,16 @@ def _analyse(st, cv) -> Analysis:
     if ti is not None and radial is not None:
         i = st.coordinate_symbols.index(radial)
         gtt, gtr, grr = st.metric[ti, ti], st.metric[ti, i], st.metric[i, i]
-        if not cv.is_zero(grr):
+        if cv.is_zero(grr) and not cv.is_zero(gtr):
+            # Null-coordinate charts (Eddington–Finkelstein): one radial null direction is
+            # t = const (along ∂_r), the other has dr/dt = -g_tt/(2 g_tr). Both point to one
+            # side exactly where ∂_t is spacelike (future ∂_r side fixed by g(k, ∓∂_r) < 0).
+            nulls = (cv.canonical(-gtt / (2 * gtr)),)
+            sgt = _signs(st)[ti] * cv.canonical(gtt)
+            if (sgt.free_symbols & set(st.coordinate_symbols)) <= {radial}:
+                iv = tools.negative_region(sgt, radial, ppoint | {radial: 1}, _lower(st, radial))
+                tilt = _text_of_region(iv, radial, True)
+        elif not cv.is_zero(grr):
             disc = cv.canonical(gtr**2 - gtt * grr)
             root = sp.sqrt(disc)
             nulls = (sp.simplify(cv.canonical(-gtr / grr) + root / cv.canonical(grr)),
@@ -753,6 +775,9 @@ def _analyse(st, cv) -> Analysis:
             static_region = ("everywhere in the declared range" if not bad
                              else f"static observers cannot exist for {bad}")
         omega2, orbit_rate, photon, isco = _orbits(st, cv, radial, ppoint, horizons, hnum)
+        if isinstance(isco, sp.Float):
+            notes.append("the innermost stable circular orbit has no usable closed form: its radius is given "
+                         "numerically at " + ", ".join(f"{k} = {float(v):.6g}" for k, v in ppoint.items()))
 
     # Back from Tw to T: positive constant factors change no sign, so verdicts stand.
     if scale != 1:
@@ -766,6 +791,7 @@ def _analyse(st, cv) -> Analysis:
         radial=radial, horizon_function=h, horizons=tuple(horizons), horizons_numeric=tuple(hnum),
         parameter_point=ppoint, naked_condition=naked, ergosurfaces=tuple(ergos),
         curvature_singularities=tuple(curv_sing), coordinate_singularities=tuple(coord_sing),
+        parameter_degeneracies=tuple(degenerate),
         curvature_limits=limits, surface_gravities=kappas, surface_gravity_forms=kappa_forms, hawking_temperatures=temps, ctc_regions=ctc,
         null_directions=nulls, cone_tilt=tilt, clock_rate=clock, static_region=static_region,
         orbit_angular_velocity=omega2, orbit_clock_rate=orbit_rate, photon_sphere=photon, isco=isco,
@@ -908,7 +934,20 @@ def _orbits(st, cv, radial, ppoint, horizons, hnum):
     denom = cv.canonical(A * dC - dA * C)
     L2 = cv.canonical(C**2 * dA / denom)
     isco = pick(sp.diff(L2, radial))
+    if isco is None:
+        isco = _numeric_root(cv.canonical(sp.diff(L2, radial)), radial, ppoint, lower)
     return omega2, rate, photon, isco
+
+
+def _numeric_root(expr, radial, ppoint, lower):
+    """The outermost real root above ``lower`` of ``expr``'s numerator at the sample parameters (a Float)."""
+    num, _ = sp.fraction(sp.together(expr.xreplace(ppoint)))
+    try:
+        roots = sp.Poly(num, radial).nroots(n=20)
+    except tools._SOLVE_ERRORS + (BasePolynomialError, NoConvergence):
+        return None
+    real = [sp.re(x) for x in roots if abs(sp.im(x)) < 1e-15 * (1 + abs(x)) and (lower is None or sp.re(x) > lower + 1e-12)]
+    return sp.Float(max(real), 15) if real else None
 
 
 # ------------------------------------------------------------------ clocks in SI units
@@ -982,6 +1021,33 @@ def _point_text(pt: dict) -> dict:
     return {expression_to_text(k): f"{float(v):.6g}" for k, v in pt.items()}
 
 
+def _math(p, lhs: str, expr) -> dict:
+    """One formula for the section: inline when short (``short``), else a display with broken lines."""
+    from .latex import estimate_width
+    from .report import equation
+
+    eq = equation(p, lhs, expr, text=False)
+    eq["short"] = not eq["multiline"] and estimate_width(lhs + " = " + eq["latex"]) < 40
+    return eq
+
+
+def _labels(name: str, diagonal: bool, n_space: int) -> list[str]:
+    """LaTeX names of the inequalities of one condition, in :func:`_inequalities` order."""
+    if diagonal:
+        sums = [rf"\rho + p_{{({i})}}" for i in range(1, n_space + 1)]
+        return {"null": sums, "weak": [r"\rho"] + sums,
+                "strong": [r"\rho + \textstyle\sum_{i} p_{(i)}"] + sums,
+                "dominant": [r"\rho"] + [x for i in range(1, n_space + 1)
+                                          for x in (rf"\rho - p_{{({i})}}", rf"\rho + p_{{({i})}}")]}[name]
+    kk = [rf"T_{{ab}} k_{{({i}{s})}}^{{a}} k_{{({i}{s})}}^{{b}}" for i in range(1, n_space + 1) for s in "+-"]
+    return kk if name in ("null", "strong") else [r"\rho"] + kk
+
+
+def _singularity(p, eq) -> dict:
+    lhs, rhs = (eq.lhs, eq.rhs) if isinstance(eq, sp.Equality) else (eq, sp.S.Zero)
+    return _math(p, p.tex(lhs), rhs)
+
+
 def report_section(spacetime, curvature, printer) -> dict | None:
     """Plain data for ``templates/sections/analysis.*.j2``, or None when nothing applies."""
     from .report import equation
@@ -991,7 +1057,7 @@ def report_section(spacetime, curvature, printer) -> dict | None:
         an = analyse(st, curvature)
     except DerivationError as exc:
         return {"template_tex": "sections/analysis.tex.j2", "template_md": "sections/analysis.md.j2",
-                "failed": exc.message, "matter": None, "conditions": [], "structure": None}
+                "failed": exc.message, "matter": None, "conditions": [], "structure": None, "notes": []}
     p = printer
     s: dict = {"template_tex": "sections/analysis.tex.j2", "template_md": "sections/analysis.md.j2",
                "failed": "", "notes": list(an.notes)}
@@ -1016,42 +1082,52 @@ def report_section(spacetime, curvature, printer) -> dict | None:
             v = an.energy_conditions.get(name)
             if v is None:
                 continue
-            witness = ""
-            if v.witness:
-                items = [(k, val) for k, val in v.witness.items()]
-                witness = ", ".join(f"{p.tex(k)} = {float(val):.6g}" for k, val in items)
+            labels = _labels(name, bool(an.pressures), st.dimension - 1)
+            if len(labels) != len(v.inequalities):
+                labels = [f"E_{{{k}}}" for k in range(1, len(v.inequalities) + 1)]
+            witness = [f"{p.tex(k)} = {float(val):.6g}" for k, val in v.witness.items()] if v.witness else []
             conds.append({
                 "name": name, "title": _CONDITION_TITLE[name], "status": v.status,
                 "status_text": _STATUS_TEXT[v.status].format(n=v.samples),
-                "inequalities": [p.tex(x) + r" \geq 0" for x in v.inequalities],
-                "witness_tex": witness, "region": v.region or "",
-                "failing_tex": p.tex(v.inequalities[v.failing]) if v.failing is not None else "",
+                "inequalities": [_math(p, lab, x) for lab, x in zip(labels, v.inequalities)],
+                "witness": witness, "region": v.region or "",
+                "failing_tex": labels[v.failing] if v.failing is not None else "",
             })
     s["conditions"] = conds
     struct = None
     if _wanted(st, "structure"):
+        r_tex = p.tex(an.radial) if an.radial is not None else ""
+        forms = an.surface_gravity_forms if len(an.surface_gravity_forms) == len(an.horizons) else (None,) * len(an.horizons)
+        horizons = []
+        for k, (r, kap, tk, form) in enumerate(zip(an.horizons, an.surface_gravities, an.hawking_temperatures, forms), 1):
+            horizons.append({
+                "radius": _math(p, f"{r_tex}_{{({k})}}", r),
+                "kappa": _math(p, rf"\kappa_{{({k})}}", kap) if kap is not None else None,
+                "kappa_form": _math(p, rf"\kappa_{{({k})}}", form) if form is not None else None,
+                "temperature": _math(p, rf"T_{{({k})}}", tk) if tk is not None else None,
+            })
         struct = {
-            "radial_tex": p.tex(an.radial) if an.radial is not None else "",
-            "horizon_function": equation(p, "H", an.horizon_function, text=False) if an.horizon_function is not None else None,
-            "horizons": [{"latex": p.tex(r), "kappa": p.tex(k) if k is not None else "",
-                          "temperature": p.tex(tk) if tk is not None else ""}
-                         for r, k, tk in zip(an.horizons, an.surface_gravities, an.hawking_temperatures)],
+            "radial_tex": r_tex,
+            "horizon_function": _math(p, "H", an.horizon_function) if an.horizon_function is not None else None,
+            "horizons": horizons,
             "horizons_numeric": [f"{x:.6g}" for x in an.horizons_numeric] if not an.horizons else [],
-            "parameter_point_tex": ", ".join(f"{p.tex(k)} = {float(v):.6g}" for k, v in an.parameter_point.items()),
-            "naked_tex": p.tex(an.naked_condition) if an.naked_condition is not None else "",
-            "ergosurfaces": [p.tex(x) for x in an.ergosurfaces],
-            "curvature_singularities": [p.tex(x) for x in an.curvature_singularities],
-            "coordinate_singularities": [p.tex(x) for x in an.coordinate_singularities],
-            "curvature_limits": [{"where": k, "latex": p.tex(v)} for k, v in an.curvature_limits.items()],
+            "parameter_point": [f"{p.tex(k)} = {float(v):.6g}" for k, v in an.parameter_point.items()],
+            "naked": _math(p, p.tex(an.naked_condition.lhs), an.naked_condition.rhs) if an.naked_condition is not None else None,
+            "ergosurfaces": [_math(p, r_tex, x) for x in an.ergosurfaces],
+            "curvature_singularities": [_singularity(p, x) for x in an.curvature_singularities],
+            "parameter_degeneracies": [_singularity(p, x) for x in an.parameter_degeneracies],
+            "coordinate_singularities": [_singularity(p, x) for x in an.coordinate_singularities],
+            "curvature_limits": [{"where": k, "eq": _math(p, "K", v)} for k, v in an.curvature_limits.items()],
             "ctc": [{"coordinate": k, "text": v} for k, v in an.ctc_regions.items()],
-            "null_directions": [p.tex(x) for x in an.null_directions],
+            "null_directions": [_math(p, rf"\left(\mathrm{{d}}{r_tex}/\mathrm{{d}}{p.tex(st.coordinates[_time_index(st)].symbol)}\right)_{{{s_}}}", x)
+                                for s_, x in zip("+-", an.null_directions)] if an.null_directions else [],
             "cone_tilt": an.cone_tilt or "",
-            "clock_rate": p.tex(an.clock_rate) if an.clock_rate is not None else "",
+            "clock_rate": _math(p, r"\mathrm{d}\tau/\mathrm{d}t", an.clock_rate) if an.clock_rate is not None else None,
             "static_region": an.static_region or "",
-            "omega2": p.tex(an.orbit_angular_velocity) if an.orbit_angular_velocity is not None else "",
-            "orbit_rate": p.tex(an.orbit_clock_rate) if an.orbit_clock_rate is not None else "",
-            "photon_sphere": p.tex(an.photon_sphere) if an.photon_sphere is not None else "",
-            "isco": p.tex(an.isco) if an.isco is not None else "",
+            "omega2": _math(p, r"\Omega^{2}", an.orbit_angular_velocity) if an.orbit_angular_velocity is not None else None,
+            "orbit_rate": _math(p, r"\mathrm{d}\tau/\mathrm{d}t", an.orbit_clock_rate) if an.orbit_clock_rate is not None else None,
+            "photon_sphere": _math(p, r_tex, an.photon_sphere) if an.photon_sphere is not None else None,
+            "isco": _math(p, r_tex, an.isco) if an.isco is not None else None,
         }
     s["structure"] = struct
     if not matter and not conds and not struct:
@@ -1099,8 +1175,10 @@ def results(spacetime, curvature) -> dict:
             "ergosurfaces": [_txt(x) for x in an.ergosurfaces],
             "curvature_singularities": [_txt(x) for x in an.curvature_singularities],
             "coordinate_singularities": [_txt(x) for x in an.coordinate_singularities],
+            "parameter_degeneracies": [_txt(x) for x in an.parameter_degeneracies],
             "curvature_limits": {k: _txt(v) for k, v in an.curvature_limits.items()},
             "surface_gravities": [_txt(x) for x in an.surface_gravities],
+            "surface_gravities_at_horizon_radius": [_txt(x) for x in an.surface_gravity_forms],
             "hawking_temperatures": [_txt(x) for x in an.hawking_temperatures],
             "closed_timelike_curves": dict(an.ctc_regions),
             "radial_null_directions": [_txt(x) for x in an.null_directions],
