@@ -509,7 +509,7 @@ def _profiles(c: _Ctx) -> dict | None:
         return None
     st, num = c.st, c.num
     sign_t = -1 if st.conventions.signature[c.ti] == "-" else 1
-    fg = num.function(-sign_t * st.metric[c.ti, c.ti]) if sign_t == -1 else num.function(st.metric[c.ti, c.ti])
+    fg = num.function(sign_t * st.metric[c.ti, c.ti])  # -g_tt for -+++, g_tt for +---
     fr = num.function(st.metric[c.ri, c.ri])
     finv = num.function(c.cv.inverse[c.ri, c.ri])
     if fg is None or fr is None or finv is None:
