@@ -128,8 +128,8 @@ def test_latex_in_references_is_printed_not_run(tmp_path):
     assert tex.count(r"\end{document}") == 1
     assert r"\input{/etc/passwd}" not in md and r"\\input\{/etc/passwd\}" in md
     # -shell-escape on purpose: even if \write18 were allowed, nothing may run.
-    proc = subprocess.run([exe, "-interaction=nonstopmode", "-halt-on-error", "-shell-escape", "-recorder", "hostile.tex"],
-                          cwd=tmp_path, stdin=subprocess.DEVNULL, capture_output=True, text=True,
+    proc = subprocess.run([exe, "-interaction=nonstopmode", "-halt-on-error", "-shell-escape", "-recorder",
+                           "hostile.tex"], cwd=tmp_path, stdin=subprocess.DEVNULL, capture_output=True, text=True,
                           errors="replace", timeout=120)
     assert proc.returncode == 0, proc.stdout[-2000:]
     assert not (tmp_path / "pwned").exists() and not (tmp_path / "pwned2").exists()
@@ -137,9 +137,10 @@ def test_latex_in_references_is_printed_not_run(tmp_path):
     opened = (tmp_path / "hostile.fls").read_text(encoding="utf-8", errors="replace")
     assert "INPUT ./hostile.tex" in opened or "INPUT hostile.tex" in opened
     assert "/etc/passwd" not in opened and "/etc/hostname" not in opened
-    if shutil.which("pdftotext"):
-        pdf = subprocess.run(["pdftotext", "hostile.pdf", "-"], cwd=tmp_path, capture_output=True, text=True).stdout
-        assert "\\input{/etc/passwd}" in pdf.replace("\n", " ")
+    assert shutil.which("pdftotext") is not None, "pdftotext is required for this test (poppler-utils)"
+    pdf = subprocess.run(["pdftotext", "hostile.pdf", "-"], cwd=tmp_path, capture_output=True, text=True,
+                         check=True).stdout.replace("\n", " ")
+    assert "\\input{/etc/passwd}" in pdf and "\\write18{touch pwned}" in pdf
 
 
 # -- fuzzing -----------------------------------------------------------------
