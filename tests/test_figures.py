@@ -305,3 +305,17 @@ parameters: {M: positive, a: {range: "0 <= a < M"}}
 metric:
   line_element: -(1 - 2*M/r) dt^2 + dr^2/(1 - 2*M/r) + r^2 (dtheta^2 + sin(theta)^2 dphi^2)
 """
+
+
+def test_de_sitter_cones_tip_outwards_beyond_cosmological_horizon(tmp_path):
+    # Static de Sitter: cosmological horizon at r = sqrt(3/Lambda) (Gibbons and Hawking, Phys. Rev. D 15, 2738
+    # (1977), recalled); beyond it the future points to larger r.
+    st, cv = _library("de_sitter/de_sitter_static.yaml")
+    (fig,) = draw_figures(st, cv, tmp_path, "ds", formats=("png",), settings={"values": {"Lambda": 3},
+                                                                              "draw": ["light_cones"]})
+    d = fig.data
+    assert _close(d["horizons"][0], 1.0)
+    for c in d["cones"]:
+        assert c["tipped"] is (c["r"] > 1 + 1e-9), c["r"]
+        assert c["towards"] == ("larger" if c["r"] > 1 + 1e-9 else None)
+    assert "point to larger $r$" in fig.caption

@@ -299,6 +299,7 @@ class _Numeric:
         self.fs = fs
         self.radial = radial
         self.theta = theta
+        self._theta_arg = theta if theta is not None else sp.Dummy("theta")
         self.subs = {k: sp.Float(v, 17) for k, v in (fs.values | fs.constants).items()}
 
     def concrete(self, expr) -> sp.Expr | None:
@@ -322,7 +323,12 @@ class _Numeric:
         e = self.concrete(expr)
         if e is None:
             return None
-        f = sp.lambdify((self.radial, self.theta), e, modules="numpy")
+        try:
+            f = sp.lambdify((self.radial, self._theta_arg), e, modules="numpy")
+            with np.errstate(all="ignore"):
+                f(np.asarray([1.5], dtype=complex), 0.7)
+        except (NameError, TypeError, ValueError, ArithmeticError, AttributeError):
+            return None  # a function numpy does not know: the figure does not apply
 
         def call(r, th=math.pi / 2):
             with np.errstate(all="ignore"):
@@ -754,12 +760,29 @@ def _light_cones(c: _Ctx) -> dict | None:
             u, pair = k1 - k2, (k1, -k2)
         else:
             continue
-        # Future: the timelike wedge with dt > 0; where t is not a time (dt = 0 along the wedge's axis)
-        # the black-hole choice, future towards smaller r (common practice).
-        flip = u[1] < -1e-9 * np.hypot(*u) or (abs(u[1]) <= 1e-9 * np.hypot(*u) and u[0] > 0)
-        out = [-k if flip else k for k in pair]
-        cones.append({"r": float(r0), "directions": [[float(k[0]), float(k[1])] for k in out],
-                      "tipped": bool(out[0][0] * out[1][0] > 1e-12)})
+        scale_u = np.hypot(*u)
+        # Future: the timelike wedge with dt > 0 where t is a time (u_t != 0); elsewhere decided below.
+        timed = abs(u[1]) > 1e-9 * scale_u
+        if timed and u[1] < 0:
+            pair = tuple(-k for k in pair)
+        cones.append({"r": float(r0), "pair": pair, "timed": timed})
+    # Where t is not a time (the wedge's axis lies along r) the orientation follows the neighbouring
+    # static region: inside a black hole (static region further out) the future points to smaller r,
+    # beyond a cosmological horizon (static region only further in) to larger r (common practice,
+    # e.g. Griffiths and Podolsky 2009, Exact Space-Times, §3.1 and §9.1, recalled).
+    timed_r = [x["r"] for x in cones if x["timed"]]
+    for x in cones:
+        pair = x.pop("pair")
+        timed = x.pop("timed")
+        if not timed:
+            inwards = any(r > x["r"] for r in timed_r) or not timed_r
+            axis = pair[0] + pair[1]
+            if (axis[0] > 0) == inwards:
+                pair = tuple(-k for k in pair)
+        x["directions"] = [[float(k[0]), float(k[1])] for k in pair]
+        both = pair[0][0] * pair[1][0] > 1e-12
+        x["tipped"] = bool(both)
+        x["towards"] = ("smaller" if pair[0][0] < 0 else "larger") if both else None
     if not cones:
         return None
     return {"cones": cones, "t_name": st.coordinates[c.ti].name, "t_tex": st.coordinates[c.ti].latex,
@@ -833,7 +856,7 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
             ax.plot(r, _nan(ys), color=PALETTE[k % 7], linestyle=STYLES[k % 6], label=rf"$\rho + p_{{{pn}}}$")
             k += 1
         ax.plot(r, _nan(d["rho_plus_sum_p"]), color=PALETTE[k % 7], linestyle=STYLES[k % 6],
-                label=r"$\rho + \sum_i p_i$")
+                label=r"$\rho + \Sigma_i\, p_i$")
         k += 1
         for pn, ys in zip(d["pressure_tex"], d["rho_minus_abs_p"]):
             ax.plot(r, _nan(ys), color=PALETTE[k % 7], linestyle=STYLES[k % 6], linewidth=0.8,
@@ -877,6 +900,8 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
 
         if disc is not None:
             handles.append(Line2D([], [], color=PALETTE[0], label="extremal"))
+        if d.get("point"):
+            handles.append(Line2D([], [], color=PALETTE[5], marker="o", linestyle="none", label="plotted values"))
         ax.legend(handles=handles, fontsize="small", loc="upper right")
         return
     elif name == "ctc":
@@ -990,12 +1015,21 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
                 f"coordinate {m(d['coordinate_tex'])} is timelike, so that its orbits are closed timelike curves "
                 f"({extent} on the grid){where}.")
     if name == "light_cones":
-        tipped = [x["r"] for x in d["cones"] if x["tipped"]]
+        runs: list = []
+        for x in d["cones"]:
+            if x["tipped"] and runs and runs[-1][2] == x["towards"] and runs[-1][3]:
+                runs[-1][1] = x["r"]
+            elif x["tipped"]:
+                runs.append([x["r"], x["r"], x["towards"], True])
+            if not x["tipped"] and runs:
+                runs[-1][3] = False
         text = (f"Radial light cones (future null directions) in the {m(d['t_tex'])}–{m(rn)} plane{where}.")
-        if tipped:
-            inside = m(f"{rn} " + r"\leq " + f"{max(tipped):.3g}")
-            text += (f" Hatched cones, at {inside}, have tipped over: both future null "
-                     f"directions point to smaller {m(rn)}.")
+        if runs:
+            parts = []
+            for a, b, towards, _ in runs:
+                span = m(f"{a:.3g} " + r"\leq " + f"{rn} " + r"\leq " + f"{b:.3g}") if a != b else m(f"{rn} = {a:.3g}")
+                parts.append(f"at {span} both future null directions point to {towards} {m(rn)}")
+            text += " Hatched cones have tipped over: " + "; ".join(parts) + "."
         else:
             text += " No cone tips over on the plotted range."
         return text
