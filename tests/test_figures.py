@@ -233,6 +233,19 @@ def test_latex_section_compiles_with_the_pdfs(kerr_newman):
     assert (out / "doc.pdf").read_bytes()[:5] == b"%PDF-"
 
 
+def test_latex_section_compiles_with_pngs_and_light_cones(eddington_finkelstein, tmp_path):
+    st, cv, figs = eddington_finkelstein
+    sec = report_section(st, cv, None, tuple(figs.values()), relative_to=tmp_path)
+    body = render("sections/figures.tex.j2", {"s": sec, "section_level": 1})
+    assert "$v$--$r$ plane" in body
+    (tmp_path / "doc.tex").write_text("\\documentclass{article}\n\\usepackage{amsmath,amssymb}\n\\usepackage{graphicx}\n"
+                                      "\\begin{document}\n" + body + "\n\\end{document}\n")
+    proc = subprocess.run(["pdflatex", "-interaction=nonstopmode", "-halt-on-error", "-no-shell-escape", "doc.tex"],
+                          cwd=tmp_path, capture_output=True, text=True, errors="replace", timeout=120)
+    assert proc.returncode == 0, proc.stdout[-2000:]
+    assert "ef-light_cones.png" in (tmp_path / "doc.log").read_text(errors="replace")
+
+
 def test_markdown_section_references_existing_pngs(kerr_newman):
     st, cv, out, figs = kerr_newman
     sec = report_section(st, cv, None, tuple(figs.values()))
@@ -272,6 +285,7 @@ def test_draw_list_selects_figures(eddington_finkelstein, tmp_path):
      "<src>:8: figures.colours: Expected one of: 'values', 'functions', 'radial_range', 'draw', 'parameter_plane' "
      "but received: 'colours'"),
     ({"values": {"b0": 1}}, "<src>:8: figures.values.b0: Expected a parameter name but received: 'b0'"),
+    ({"values": {"M": 1, "a": 1.5}}, "<src>:8: figures.values.a: Expected a value with 0 <= a < M but received: 1.5"),
 ])
 def test_bad_settings(settings, message, tmp_path):
     text = KERR_SMALL + "figures: {}\n"

@@ -282,11 +282,21 @@ def figure_settings(spacetime, settings: dict | None = None) -> FigureSettings:
                     err.add(f"Expected a key '{key}' naming a parameter", pnode, "figures.parameter_plane", line)
             if not err.items and len({plane["x"], plane["y"], plane["scale"]} - {None}) < (3 if plane["scale"] else 2):
                 err.add("Expected x, y and scale to name different parameters", pnode, "figures.parameter_plane", line)
+    values = _default_values(st, given) if not err.items else {}
+    for p in st.parameters:
+        if p.symbol not in given or p.range is None:
+            continue
+        point = {k: sp.Float(v, 17) for k, v in values.items()}
+        for rel in p.range.relations(p.symbol):
+            if rel.xreplace(point) is not sp.true:
+                err.add(f"Expected a value with {p.range.text} but received: {given[p.symbol]:g}",
+                        _child(vnode, p.name), f"figures.values.{p.name}", line)
+                break
     if len(err.items) == 1:
         raise err.items[0]
     if err.items:
         raise ConfigErrors(err.items)
-    return FigureSettings(values=_default_values(st, given), constants=constants, functions=functions,
+    return FigureSettings(values=values, constants=constants, functions=functions,
                           radial_range=rr, draw=draw, plane=plane)
 
 
@@ -667,7 +677,6 @@ def _plane(c: _Ctx) -> dict | None:
             "x_tex": _latex_of(c.st, x), "y_tex": _latex_of(c.st, y),
             "scale_tex": _latex_of(c.st, scale) if scale is not None else None,
             "regions": [labels.get(k, f"{k} horizons") for k in present],
-            "extremal": sp.srepr(sp.Eq(disc, 0)) if disc is not None else None,
             "extremal_text": f"{disc} = 0" if disc is not None else None,
             "_disc": disc, "point": point}
 
@@ -1023,7 +1032,8 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
                 runs.append([x["r"], x["r"], x["towards"], True])
             if not x["tipped"] and runs:
                 runs[-1][3] = False
-        text = (f"Radial light cones (future null directions) in the {m(d['t_tex'])}–{m(rn)} plane{where}.")
+        dash = "--" if tex else "–"
+        text = (f"Radial light cones (future null directions) in the {m(d['t_tex'])}{dash}{m(rn)} plane{where}.")
         if runs:
             parts = []
             for a, b, towards, _ in runs:
