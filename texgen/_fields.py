@@ -220,9 +220,10 @@ def _linearly_independent(keys: Sequence[sp.Expr]) -> bool:
 class _Discovery:
     """Walks expressions and collects the generators (closed under differentiation)."""
 
-    def __init__(self, coordinates: Sequence[sp.Symbol], sums: bool = False):
+    def __init__(self, coordinates: Sequence[sp.Symbol], sums: bool = False, depth: int = MAX_DEPTH):
         self.coords = tuple(coordinates)
         self.sums = sums
+        self.depth = depth
         self.gens: dict[sp.Expr, Gen] = {}
         self.exp_coeffs: dict[sp.Expr, set] = {}
         self.exp_gens: dict[sp.Expr, Gen] = {}
@@ -309,9 +310,13 @@ class _Discovery:
         raise Unmappable(f"cannot represent {e}")
 
     def _sqrt(self, b: sp.Expr, depth: int) -> None:
-        num, den = sp.fraction(sp.together(b))
+        num, den = _radicands(b)
         for part in (num, den):
             if part == 1:
+                continue
+            root = sp.sqrt(part)
+            if root != sp.sqrt(part, evaluate=False):
+                self.walk(root, depth)  # sympy took squares out: sqrt(R^3) = R sqrt(R)
                 continue
             self.walk(part, depth)
             self.add(sp.sqrt(part, evaluate=False), "sqrt", depth, part)
@@ -328,7 +333,7 @@ class _Discovery:
             self.exp_coeffs.setdefault(rest, set()).add(c)
 
     def close(self) -> None:
-        """Differentiate the function-like generators until MAX_DEPTH."""
+        """Differentiate the function-like generators until the kept depth."""
         while self.pending or self._exp_pending():
             while self.pending:
                 g = self.pending.pop()
@@ -352,7 +357,7 @@ class _Discovery:
         return made
 
     def _derive(self, g: Gen) -> None:
-        if g.depth >= MAX_DEPTH:
+        if g.depth >= self.depth:
             g.derivs = None  # not available: using it raises
             return
         for k, x in enumerate(self.coords):
@@ -370,6 +375,32 @@ class _Discovery:
                 d = prepare(d, self.sums)
                 g.derivs[k] = d
                 self.walk(d, g.depth + 1)
+
+
+def _radicands(b: sp.Expr) -> tuple[sp.Expr, sp.Expr]:
+    """Numerator and denominator of a square root's argument, expanded.
+
+    Expanding gives one key per polynomial: sqrt((M - Q)(M + Q)) and sqrt(M^2 - Q^2)
+    become the same generator.
+    """
+    num, den = sp.fraction(sp.together(b))
+    return sp.expand(num), sp.expand(den)
+
+
+def _independent_mod2(vectors: Sequence[set]) -> bool:
+    """Whether sets, read as vectors over GF(2) (symmetric difference), are independent."""
+    basis: dict = {}
+    for vec in vectors:
+        vec = set(vec)
+        while vec:
+            pivot = min(vec, key=repr)
+            if pivot not in basis:
+                basis[pivot] = vec
+                break
+            vec ^= basis[pivot]
+        else:
+            return False
+    return True
 
 
 def _rational_gcd(cs: Iterable[sp.Rational]) -> sp.Rational:
@@ -456,18 +487,20 @@ class FieldAlgebra:
     :param coordinates: coordinate symbols (derivatives are taken along these).
     :param expressions: every expression that will be converted (the metric, Λ ...).
     :param backend: ``"flint"`` or ``"polys"``.
+    :param depth: derivative depth kept for generators (0 for a field that only
+        normalises, never differentiates).
     """
 
     name = "field"
 
     def __init__(self, coordinates: Sequence[sp.Symbol], expressions: Iterable[sp.Expr],
-                 backend: str = "flint"):
+                 backend: str = "flint", depth: int = MAX_DEPTH):
         self.coordinates = tuple(coordinates)
         expressions = list(expressions)
-        disc = self._discover(expressions, sums=False)
+        disc = self._discover(expressions, sums=False, depth=depth)
         if not all(_linearly_independent(k) for k in _argument_families(disc.gens.values())):
             # related arguments such as sinh(u + R), sinh(u - R): expand the sums
-            disc = self._discover(expressions, sums=True)
+            disc = self._discover(expressions, sums=True, depth=depth)
         self.sums = disc.sums
         gens = list(disc.gens.values())
         # algebraic generators first: with lex order the relation X^2 - R then has
@@ -527,8 +560,8 @@ class FieldAlgebra:
             self.gen_diff.append(dd)
 
     # -- setup -------------------------------------------------------------
-    def _discover(self, expressions, sums: bool) -> "_Discovery":
-        disc = _Discovery(self.coordinates, sums)
+    def _discover(self, expressions, sums: bool, depth: int) -> "_Discovery":
+        disc = _Discovery(self.coordinates, sums, depth)
         for c in self.coordinates:
             disc.add(c, "symbol", 0)
         for e in expressions:
@@ -552,6 +585,7 @@ class FieldAlgebra:
                 self.exact = False
 
     def _setup_relations(self) -> None:
+        radicals: list[set] = []
         for i, g in enumerate(self.gens):
             if not g.algebraic:
                 continue
@@ -569,7 +603,7 @@ class FieldAlgebra:
                 except Unmappable:
                     r = None
                 if r is None or r.den or any(
-                        self.P.degrees(r.num)[j] for j, h in enumerate(self.gens) if h.algebraic):
+                        self.P.degrees(r.num)[j] > 0 for j, h in enumerate(self.gens) if h.algebraic):
                     g.algebraic = False
                     g.kind = "opaque"
                     self.exact = False
@@ -582,6 +616,28 @@ class FieldAlgebra:
                 self.exact = False  # S^2 = P with P not square-free: zero divisors
             if g.kind in ("sin", "sinh"):
                 self.square_of[i] = (const, tuple(sorted((self._factor_id(f)[0], e) for f, e in fs)))
+            else:
+                radicals.append(self._square_class(const, fs))
+        if not _independent_mod2(radicals):
+            # sqrt(M - Q) sqrt(M + Q) next to sqrt(M^2 - Q^2), or i next to sqrt(-r), sqrt(r)
+            self.exact = False
+
+    def _square_class(self, const, fs) -> set:
+        """The radicand modulo squares: its odd-power irreducible factors, primes and sign."""
+        vec: set = set()
+        unit = sp.Rational(const)
+        for f, e in fs:
+            idx, u = self._factor_id(f)
+            unit *= u ** e
+            if e % 2:
+                vec ^= {("factor", idx)}
+        if unit < 0:
+            vec ^= {("sign",)}
+        for part in (abs(int(unit.p)), int(unit.q)):
+            for prime, e in sp.factorint(part).items():
+                if e % 2:
+                    vec ^= {("prime", prime)}
+        return vec
 
     def _factor_id(self, f) -> tuple[int, sp.Rational]:
         """Index of the normalised irreducible factor f in the factor base, and the unit."""
@@ -652,11 +708,15 @@ class FieldAlgebra:
             if x.is_Integer:
                 return self.power(self._conv(b), int(x))
             if x.is_Rational and x.q == 2:
-                num, den = sp.fraction(sp.together(b))
+                num, den = _radicands(b)
                 if den == 1 or den.is_positive:
                     out = self.one
                     for part, sgn in ((num, 1), (den, -1)):
                         if part == 1:
+                            continue
+                        root = sp.sqrt(part)
+                        if root != sp.sqrt(part, evaluate=False):
+                            out = self.mul(out, self.power(self._conv(root), sgn * int(x.p)))
                             continue
                         j = self.index.get(sp.sqrt(part, evaluate=False))
                         if j is None:
@@ -1029,8 +1089,9 @@ def numeric_zero(expr: sp.Expr, symbols: Sequence[sp.Symbol], *, points: int = 3
                  digits: int = 50, seed: int = 12345) -> bool:
     """True if ``expr`` vanishes at random points (free functions replaced by random polynomials).
 
-    Values are taken in [1/2, 3/2] shifted to respect sign assumptions; with 50 digits a
-    value below 10^-30 is taken as zero.
+    Magnitudes are taken in [1/2, 3/2], with either sign unless the symbol's assumptions
+    fix it; with 50 digits a value below 10^-30 is taken as zero.  Singular points are
+    skipped; if no point can be evaluated the answer is False.
     """
     rng = random.Random(seed)
     expr = sp.sympify(expr)
@@ -1052,7 +1113,9 @@ def numeric_zero(expr: sp.Expr, symbols: Sequence[sp.Symbol], *, points: int = 3
         subs = {}
         for s in free:
             v = sp.Rational(rng.randint(500, 1500), 1000)
-            subs[s] = -v if s.is_negative else v
+            if s.is_negative or (not s.is_nonnegative and rng.random() < 0.5):
+                v = -v  # a symbol without a sign may be negative: |r| - r is not zero
+            subs[s] = v
         with mpmath.workdps(digits):
             try:
                 v = sp.N(e.subs(subs), digits)

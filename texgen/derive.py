@@ -733,13 +733,32 @@ class Curvature:
         except _fields.Unmappable:
             return None
 
+    def _user(self, expr: Any):
+        """(arithmetic, element) for a user expression, or (None, normalised expression).
+
+        Atoms the spacetime's field lacks (a new symbol, Abs, a root of a rational
+        function) get a field of their own, built with the metric's atoms so that
+        shared parts print alike; only what no field can hold goes to ``cancel``.
+        """
+        e = self._prepare_user(expr)
+        A = self.algebra
+        try:
+            return A, A.from_sympy(e)
+        except _fields.Unmappable:
+            pass
+        if isinstance(A, _fields.FieldAlgebra):
+            exprs = [e, *self.spacetime.metric, self.spacetime.cosmological_constant]
+            try:
+                F = _fields.FieldAlgebra(self.coordinates, exprs, backend=A.backend, depth=0)
+                return F, F.from_sympy(e)
+            except _fields.Unmappable:
+                pass
+        return None, _fields.ExprAlgebra(self.coordinates).normal(e)
+
     def canonical(self, expr: Any) -> sp.Expr:
         """The engine's normal form of ``expr`` (definitions expanded)."""
-        e = self._prepare_user(expr)
-        x = self._elem(e)
-        if x is None:
-            return _fields.ExprAlgebra(self.coordinates).normal(e)
-        return self.algebra.to_sympy(x)
+        F, x = self._user(expr)
+        return x if F is None else F.to_sympy(x)
 
     def is_zero(self, expr: Any) -> bool:
         """Whether ``expr`` vanishes identically.
@@ -748,18 +767,17 @@ class Curvature:
         atoms, the expression fallback) a non-zero form is tested numerically at
         random points with 50 digits.
         """
-        e = self._prepare_user(expr)
-        x = self._elem(e)
-        if x is not None:
-            if self.algebra.is_zero_fast(x):
+        F, x = self._user(expr)
+        if F is None:
+            if x == 0:
                 return True
-            if self.algebra.exact:
-                return False
-            e = self.algebra.to_sympy(x)
+            e = x
         else:
-            e = _fields.ExprAlgebra(self.coordinates).normal(e)
-            if e == 0:
+            if F.is_zero_fast(x):
                 return True
+            if F.exact:
+                return False
+            e = F.to_sympy(x)
         symbols = self.coordinates + tuple(self.spacetime.parameter_symbols)
         return _fields.numeric_zero(e, symbols)
 
