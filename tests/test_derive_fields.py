@@ -235,4 +235,4 @@ def test_square_factors_leave_the_root():
     F = _fields.make_algebra(COORDS, [sp.sqrt(1 - 2 * M * r**2 / R_**3), sp.sqrt(1 - 2 * M / R_)])
     assert F.exact
     assert sorted(str(g.expr) for g in F.gens if g.kind == "sqrt") == \
-        ["sqrt(-2*M*r**2 + R**3)", "sqrt(-2*M + R)", "sqrt(R)"]
+        ["sqrt(-2*M + R)", "sqrt(-2*M*r**2 + R**3)", "sqrt(R)"]
