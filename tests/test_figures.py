@@ -333,3 +333,15 @@ def test_de_sitter_cones_tip_outwards_beyond_cosmological_horizon(tmp_path):
         assert c["tipped"] is (c["r"] > 1 + 1e-9), c["r"]
         assert c["towards"] == ("larger" if c["r"] > 1 + 1e-9 else None)
     assert "point to larger $r$" in fig.caption
+
+
+def test_hayward_kretschmann_finite_at_the_centre(tmp_path):
+    # Hayward, Phys. Rev. Lett. 96, 031103 (2006): f = 1 - 2 M r²/(r³ + 2 M l²) ≈ 1 - r²/l² near r = 0,
+    # a de Sitter core of radius l, whose Kretschmann scalar is 24/l⁴ (common practice).
+    st, cv = _library("regular/hayward.yaml")
+    (fig,) = draw_figures(st, cv, tmp_path, "h", formats=("png",), settings={"draw": ["invariants"]})
+    d = fig.data
+    assert d["finite_at_inner_edge"] is True
+    assert d["diverges_at_inner_edge"] is False
+    assert "finite limit as $r \\to 0$" in fig.caption
+    assert abs(d["kretschmann_abs"][0] - 24 / d["values"]["l"] ** 4) < 1e-3 * 24 / d["values"]["l"] ** 4

@@ -349,15 +349,6 @@ class _Numeric:
             return real
         return call
 
-    def number(self, expr, th=math.pi / 2) -> float | None:
-        f = self.function(expr)
-        if f is None:
-            return None
-        v = float(f([1.0], th)[0]) if not (self.radial in sp.sympify(expr).free_symbols) else None
-        if v is None:
-            return None
-        return v if math.isfinite(v) else None
-
     def radius(self, expr, th=math.pi / 2) -> float | None:
         """A radius (expression of the parameters, perhaps θ) at the plotted values."""
         e = self.concrete(expr)
@@ -557,22 +548,29 @@ def _invariants(c: _Ctx) -> dict | None:
         return None
     r = c.rgrid
     k = _np().abs(f(r))
-    inner = [x for x in r if x > 0][:1]
     sing = []
     if c.an is not None:
         for eq in c.an.curvature_singularities:
-            try:
-                if isinstance(eq, sp.Eq) and eq.lhs == c.radial:
-                    v = c.num.radius(eq.rhs)
-                    if v is not None:
-                        sing.append(v)
-            except TypeError:
-                continue
-    horizons_finite = [float(f([x])[0]) for x in c.specials]
+            if isinstance(eq, sp.Eq) and eq.lhs == c.radial:
+                v = c.num.radius(eq.rhs)
+                if v is not None:
+                    sing.append(v)
+    at_special = [float(f([x])[0]) for x in c.specials]
+    # The exact limit at the lower end of the radial range (analysis) decides when K does not depend on the
+    # angle; otherwise (the ring of Kerr diverges on the equator only) the plotted samples do.
+    limits = list(c.an.curvature_limits.values()) if c.an is not None else []
+    finite = False
+    if limits and (c.theta is None or c.theta not in sp.sympify(K).free_symbols):
+        near = c.lower is not None and abs(r[0] - c.lower) <= 1e-2 * (abs(r[-1] - r[0]))
+        infinite = any(sp.sympify(v).has(sp.oo, -sp.oo, sp.zoo) for v in limits)
+        diverges = infinite and near
+        finite = near and not infinite
+    else:
+        finite = [x for x in at_special if math.isfinite(x)]
+        diverges = bool(len(k) and math.isfinite(k[0]) and finite and k[0] > 1e3 * max(finite))
     return {"r": r, "kretschmann_abs": _plain(k), "curvature_singularities": sing,
-            "horizons": c.horizons, "throats": c.throats, "kretschmann_at_special": _plain(horizons_finite),
-            "diverges_at_inner_edge": bool(inner and len(k) and math.isfinite(k[0]) and k[0] > 1e3 * max(
-                [x for x in horizons_finite if math.isfinite(x)] + [1e-300]))}
+            "horizons": c.horizons, "throats": c.throats, "kretschmann_at_special": _plain(at_special),
+            "diverges_at_inner_edge": bool(diverges), "finite_at_inner_edge": bool(finite)}
 
 
 def _energy_conditions(c: _Ctx) -> dict | None:
@@ -962,7 +960,9 @@ _DEC = r"\rho \geq |p_i|"
 
 def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
     vals = c.values_tex if tex else c.values_text
-    m = (lambda s: f"${s}$") if tex else (lambda s: f"${s}$")
+    def m(text):
+        return f"${text}$"
+
     rn = c.st.coordinates[c.ri].latex
     where = f" at {vals}" if vals else ""
     if name == "profiles":
@@ -982,18 +982,21 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
             text += f" Angular dependence evaluated on the equator {m(_EQUATOR)}."
         return text
     if name == "invariants":
+        edge = m(rn + r" \to " + f"{c.lower:g}") if c.lower is not None else ""
         text = f"The Kretschmann scalar {m('|R_{abcd}R^{abcd}|')} on a logarithmic scale against {m(rn)}{where}"
         if c.theta is not None:
             text += f", on the equator {m(_EQUATOR)}"
         text += "."
         if d["horizons"] and all(x is not None for x in d["kretschmann_at_special"]):
-            text += " It stays finite at the horizons (coordinate singularities of these coordinates)"
-            text += ", and grows without bound towards the curvature singularity." if d["diverges_at_inner_edge"] else "."
+            text += " It stays finite at the horizons (no curvature singularity there)"
+            text += f", and grows without bound as {edge}, a curvature singularity." if d["diverges_at_inner_edge"] else "."
         elif d["throats"] and all(x is not None for x in d["kretschmann_at_special"]):
             text += " It stays finite at the throat, where the metric component $g_{rr}$ blows up (a coordinate singularity)"
             text += ", and grows without bound towards the curvature singularity." if d["diverges_at_inner_edge"] else "."
         elif d["diverges_at_inner_edge"]:
-            text += " It grows without bound towards the curvature singularity."
+            text += f" It grows without bound as {edge}, a curvature singularity."
+        if d["finite_at_inner_edge"]:
+            text += f" It has a finite limit as {edge}: no curvature singularity there."
         return text
     if name == "energy_conditions":
         text = (f"Energy-condition combinations in the static frame against {m(rn)}{where}: the null condition needs "
