@@ -702,9 +702,10 @@ class Curvature:
     def nonzero_christoffel(self) -> list[tuple[tuple[int, int, int], sp.Expr]]:
         """Non-zero Γ^a_bc with b <= c, in index order."""
         gam = self.christoffel
+        table = self._E("christoffel")
         n = self.dimension
         return [((a, b, c), gam[a, b, c]) for a in range(n) for b in range(n) for c in range(b, n)
-                if not self.is_zero(gam[a, b, c])]
+                if not self._vanishes(table[a][b][c], gam[a, b, c])]
 
     def independent_riemann(self) -> list[tuple[tuple[int, int, int, int], sp.Expr]]:
         """Non-zero R_abcd with a<b, c<d, (a,b) <= (c,d), in index order."""
@@ -713,9 +714,18 @@ class Curvature:
         out = []
         for key in sorted(table):
             expr = self._sym(table[key])
-            if not self.is_zero(expr):
+            if not self._vanishes(table[key], expr):
                 out.append((key, expr))
         return out
+
+    def _vanishes(self, elem: Any, expr: sp.Expr) -> bool:
+        """Zero test of a computed component (structural, numeric where not canonical)."""
+        A = self.algebra
+        if A.is_zero_fast(elem):
+            return True
+        if A.exact:
+            return False
+        return _fields.numeric_zero(expr, self.coordinates + tuple(self.spacetime.parameter_symbols))
 
     def _prepare_user(self, expr: Any) -> sp.Expr:
         try:
