@@ -294,6 +294,8 @@ def test_de_sitter_global_hyperbolic():
 # --- listings and forms -----------------------------------------------------------------
 
 def test_nonzero_christoffel_schwarzschild():
+    # the nine Schwarzschild Christoffel symbols: Carroll 2004, ch. 5 (recalled, not looked up;
+    # the sympy.diffgeom comparison in test_derive_reference.py checks the machinery)
     cv = Curvature(schwarzschild())
     assert cv.nonzero_christoffel() == [
         ((0, 0, 1), M / (r * (r - 2 * M))),
@@ -309,6 +311,8 @@ def test_nonzero_christoffel_schwarzschild():
 
 
 def test_independent_riemann_schwarzschild():
+    # orthonormal-frame values R_trtr = -2M/r^3, R_tθtθ = M/r^3, R_θφθφ = 2M/r^3 (MTW 1973,
+    # eq. 31.4, recalled) times the metric factors of each coordinate pair
     cv = Curvature(schwarzschild())
     assert cv.independent_riemann() == [
         ((0, 1, 0, 1), -2 * M / r**3),
@@ -321,6 +325,7 @@ def test_independent_riemann_schwarzschild():
 
 
 def test_riemann_array_symmetries():
+    # pair antisymmetry and pair exchange (common practice); R^t_rtr = g^tt R_trtr
     cv = Curvature(schwarzschild())
     R = cv.riemann_down
     assert R[1, 0, 0, 1] == 2 * M / r**3
