@@ -244,7 +244,7 @@ def test_btz():
     assert cv.ricci_scalar == -6 / ell**2
     assert cv.weyl == sp.ImmutableDenseNDimArray([0] * 81, (3, 3, 3, 3))
     assert cv.invariant_identity == 0
-    assert cv.kretschmann == 12 / ell**4
+    assert cv.kretschmann == 12 / ell**4  # locally AdS_3: K = 2 n (n-1)/ell^4 (common practice)
 
 
 def test_tangherlini_five_dimensions():
@@ -255,7 +255,8 @@ def test_tangherlini_five_dimensions():
     g = sp.diag(-f, 1 / f, r**2, r**2 * sp.sin(chi)**2, r**2 * sp.sin(chi)**2 * sp.sin(th)**2)
     cv = Curvature(spacetime_from_matrix((t, r, chi, th, ph), g, parameters=(mu,)))
     assert cv.ricci == sp.zeros(5)
-    assert cv.kretschmann == 72 * mu**2 / r**8  # common practice: K = (n-1)(n-2)^2(n-3) mu^2/(4 r^(2n-2))
+    # common practice: K = (n-1)(n-2)^2(n-3) mu^2 / r^(2n-2); n = 4, mu = 2M gives 48 M^2/r^6
+    assert cv.kretschmann == 72 * mu**2 / r**8
     assert cv.invariant_identity == 0
 
 
