@@ -829,7 +829,10 @@ def _metric(b: _Builder, coordinates: list[Coordinate], ns: Namespace) -> sp.Imm
                      f"Every term must be a product of two differentials; this one has {len(k)}: "
                      f"'{_shown_expr(term)}'", _TERM_HINT)
             return None
-        for (i, j), v in form_.items():
+        for key, v in form_.items():
+            if len(key) != 2 or v == 0:  # what is left of terms that cancelled
+                continue
+            i, j = key
             if i == j:
                 g[i][i] = v
             else:
