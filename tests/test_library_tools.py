@@ -367,3 +367,15 @@ def test_bulk_build_of_an_empty_folder(tmp_path):
     (tmp_path / "empty").mkdir()
     with pytest.raises(ConfigError, match="^No spacetime files found in "):
         build_library([tmp_path / "empty"], tmp_path / "out")
+
+
+def test_library_listing_shows_verdicts_of_an_earlier_build(tmp_path, capsys):
+    from texgen.cache import ResultCache
+    from texgen.library import entry_payload
+
+    folder = _copy(tmp_path, "schwarzschild/schwarzschild.yaml", "lower_dimensions/two_sphere.yaml")
+    entry_payload(load_spacetime(folder / "schwarzschild" / "schwarzschild.yaml"), cache=ResultCache(tmp_path / "c"))
+    assert cli.main(["library", str(folder), "--cache-dir", str(tmp_path / "c")]) == 0
+    rows = {line.split()[0]: line for line in capsys.readouterr().out.splitlines()[1:]}
+    assert "  9/9 hold  " in rows["schwarzschild"]
+    assert "  6 claims, not checked  " in rows["two-sphere"]

@@ -23,7 +23,8 @@ def register(sub) -> None:
     p.add_argument("--check", action="store_true", help="validate entries, relations, versions and hashes")
     p.add_argument("--record", action="store_true",
                    help="write FOLDER/VERSIONS.json with every entry's version and physics hash")
-    p.add_argument("--cache-dir", metavar="DIR", help="cache folder to read claim verdicts from")
+    p.add_argument("--cache-dir", metavar="DIR",
+                   help="cache folder to read claim verdicts of earlier builds from (default: $XDG_CACHE_HOME/texgen)")
     p.set_defaults(run=cmd_library)
 
     p = sub.add_parser("diff", help="what changed between two versions of a spacetime file",
@@ -78,8 +79,7 @@ def cmd_library(args: argparse.Namespace) -> int:
             print(f"error: {msg}", file=sys.stderr)
         print(f"{result.entries} entries, {len(result.relations)} relations, {len(result.problems)} problem(s)")
         return 0 if result.ok else 2
-    cache = None if args.cache_dir is None else _cache(args)
-    rows, errors = library.list_entries([folder], cache=cache)
+    rows, errors = library.list_entries([folder], cache=_cache(args))  # verdicts of earlier builds
     head = ("ID", "VERSION", "DIM", "FAMILY", "CLAIMS", "TITLE")
     table = [(r.id, r.version, str(r.dimension), r.family or "-", r.claims, r.title) for r in rows]
     widths = [max(len(x[i]) for x in table + [head]) for i in range(5)]

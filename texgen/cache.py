@@ -3,7 +3,8 @@
 One entry per spacetime and report options holds the plain-data report context
 and the JSON results (JSON only, never pickle).  The key joins the physics hash
 (:func:`texgen.versioning.physics_hash`), a hash of the prose and claims the
-report shows, texgen's version, the conventions and the report options: a
+report shows, texgen's version and a digest of its Python sources, the
+conventions and the report options: a
 template-only change therefore recomputes nothing, and a comment or layout
 change in the YAML file does not either.  Every entry carries a SHA-256 of its
 payload; a corrupt, truncated or foreign entry is logged at debug level and
@@ -39,6 +40,20 @@ def _digest(data: Any) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
+_CODE: list[str] = []
+
+
+def code_digest() -> str:
+    """SHA-256 of texgen's own Python sources: a fix to the engine invalidates results even
+    before the version number moves (templates are not included: they only render)."""
+    if not _CODE:
+        h = hashlib.sha256()
+        for p in sorted(Path(__file__).resolve().parent.glob("*.py")):
+            h.update(p.name.encode() + b"\0" + p.read_bytes() + b"\0")
+        _CODE.append(h.hexdigest())
+    return _CODE[0]
+
+
 def entry_key(model: Spacetime, options: dict | None = None) -> dict:
     """What a cached entry of ``model`` depends on, as plain data."""
     from .versioning import physics_hash
@@ -52,7 +67,7 @@ def entry_key(model: Spacetime, options: dict | None = None) -> dict:
              "latex": [[x.name, x.latex] for x in (*model.coordinates, *model.parameters, *model.functions)],
              "metric_display": [str(e) for e in model.metric_display],
              "sections": {s.key: s.data for s in model.sections}}
-    return {"physics": physics_hash(model), "shown": _digest(shown), "texgen": __version__,
+    return {"physics": physics_hash(model), "shown": _digest(shown), "texgen": __version__, "code": code_digest(),
             "conventions": [conv.signature, int(conv.riemann_sign), conv.units],
             "options": options or {}}
 
