@@ -703,19 +703,26 @@ def _ctc(c: _Ctx) -> dict | None:
         f = c.num.function(sign_space * st.metric[i, i])
         if f is None:
             continue
-        rpos = [x for x in c.rgrid if x > 0] or c.rgrid
-        rs = np.asarray(rpos[:: max(1, len(rpos) // 150)])
+        rpos = np.asarray([x for x in c.rgrid if x > 0] or c.rgrid)
         ths = np.linspace(0.0, math.pi, 91) if c.theta is not None else np.asarray([math.pi / 2])
-        R, T = np.meshgrid(rs, ths)
-        vals = f(R, T)
         with np.errstate(invalid="ignore"):
-            neg = vals < 0
+            neg = f(*np.meshgrid(rpos, ths)) < 0
         if not neg.any():
             continue
-        rr = R[neg]
+        # Zoom on the region (near the ring of Kerr–Newman it is tiny) and sample it again finely.
+        top = float(np.meshgrid(rpos, ths)[0][neg].max())
+        stop = min(float(rpos[-1]), max(1.6 * top, float(rpos[0]) + 1e-9))
+        start = c.lower + stop / 1000 if c.lower is not None else float(rpos[0])
+        rs = np.linspace(start, stop, 201)
+        ths = np.linspace(0.0, math.pi, 181) if c.theta is not None else ths
+        R, T = np.meshgrid(rs, ths)
+        with np.errstate(invalid="ignore"):
+            neg = f(R, T) < 0
+        rr = R[neg] if neg.any() else np.asarray([top])
         return {"coordinate": co.name, "coordinate_tex": co.latex, "r": list(map(float, rs)),
                 "theta": list(map(float, ths)), "timelike": neg.astype(int).tolist(),
-                "r_extent": [float(rr.min()), float(rr.max())]}
+                "r_extent": [float(rr.min()), float(rr.max())],
+                "horizons": [x for x in c.horizons if x <= stop]}
     return None
 
 
@@ -918,12 +925,21 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
         X, Y = R * np.sin(T), R * np.cos(T)
         ax.contourf(X, Y, Z, levels=[0.5, 1.5], colors=[PALETTE[6]], hatches=["//"], alpha=0.6)
         ax.contour(X, Y, Z, levels=[0.5], colors=[PALETTE[0]], linewidths=1)
+        for k, rh in enumerate(d["horizons"]):
+            ax.plot(rh * np.sin(ths), rh * np.cos(ths), color=PALETTE[0], linestyle=":", linewidth=1,
+                    label=f"horizon ${rh:.4g}$")
+        from matplotlib.patches import Patch
+
+        handles = ax.get_legend_handles_labels()[0]
+        handles.append(Patch(facecolor=PALETTE[6], hatch="//", alpha=0.6, label="closed timelike curves"))
+        ax.legend(handles=handles, fontsize="small", loc="upper right")
         ax.set_aspect("equal")
         if c.theta is not None:
             ax.set_xlabel(rf"${c.st.coordinates[c.ri].latex}\,\sin\theta$")
             ax.set_ylabel(rf"${c.st.coordinates[c.ri].latex}\,\cos\theta$")
         else:
             ax.set_xlabel(rtex)
+        return
     elif name == "light_cones":
         span = d["cones"][-1]["r"] - d["cones"][0]["r"]
         size = span / (len(d["cones"]) * 1.3) if span > 0 else 0.3
