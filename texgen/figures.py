@@ -386,7 +386,10 @@ def _roots_numeric(num: _Numeric, h, lower: float | None, hi: float) -> list[flo
         ys = f(rs)
         for i in range(len(rs) - 1):
             if np.isfinite(ys[i]) and np.isfinite(ys[i + 1]) and ys[i] * ys[i + 1] < 0:
-                out.append(float(sp.nsolve(e, num.radial, (rs[i] + rs[i + 1]) / 2)))
+                try:
+                    out.append(float(sp.nsolve(e, num.radial, (rs[i], rs[i + 1]), solver="bisect")))
+                except (ValueError, TypeError, ZeroDivisionError, NoConvergence):
+                    continue
     keep = sorted({round(x, 12) for x in out if lower is None or x > lower + 1e-12}, reverse=True)
     return [float(x) for x in keep]
 
@@ -655,15 +658,20 @@ def _plane(c: _Ctx) -> dict | None:
     coeffs = [sp.lambdify((x, y), co, modules="numpy") for co in poly.all_coeffs()]
     counts = np.zeros((len(ys), len(xs)), dtype=int)
     for j, yv in enumerate(ys):
-        cs = [np.broadcast_to(np.asarray(f(xs, yv), dtype=float), xs.shape) for f in coeffs]
+        with np.errstate(all="ignore"):
+            cs = [np.broadcast_to(np.asarray(f(xs, yv), dtype=float), xs.shape) for f in coeffs]
         for i in range(len(xs)):
-            roots = np.roots([cc[i] for cc in cs])
+            co = [cc[i] for cc in cs]
+            if not all(map(math.isfinite, co)):
+                counts[j, i] = -1  # the horizon function is undefined there: left blank
+                continue
+            roots = np.roots(co)
             real = roots[np.abs(roots.imag) < 1e-9].real
             if c.lower is not None:
                 real = real[real > c.lower]
             counts[j, i] = len(real)
     labels = {2: "two horizons", 1: "one horizon", 0: "no horizon (naked singularity)"}
-    present = sorted({int(k) for k in counts.flat}, reverse=True)
+    present = sorted({int(k) for k in counts.flat if k >= 0}, reverse=True)
     disc = sp.discriminant(poly.as_expr(), c.radial) if poly.degree() == 2 else None
     point = None
     if scale is not None:
@@ -890,15 +898,17 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
         greys = ListedColormap(["#FFFFFF", "#E69F00", "#56B4E9"])
         ax.pcolormesh(xs, ys, counts, cmap=greys, vmin=0, vmax=2, shading="nearest")
         for k, hatch in ((0, "xx"), (1, "..")):
-            if (counts == k).any():
+            if (counts == k).any() and not (counts == k).all():
                 ax.contourf(xs, ys, (counts == k).astype(float), levels=[0.5, 1.5], colors="none", hatches=[hatch])
         disc = d.get("_disc")
         if disc is not None:
             f = sp.lambdify((sp.Symbol(d["x_name"], **_assump(c, d["x_name"])),
                              sp.Symbol(d["y_name"], **_assump(c, d["y_name"]))), disc, modules="numpy")
             X, Y = np.meshgrid(xs, ys)
-            Z = np.broadcast_to(np.asarray(f(X, Y), dtype=float), X.shape)
-            ax.contour(xs, ys, Z, levels=[0.0], colors=[PALETTE[0]], linewidths=1.5)
+            with np.errstate(all="ignore"):
+                Z = np.broadcast_to(np.asarray(f(X, Y), dtype=float), X.shape)
+            if np.nanmin(Z) < 0 < np.nanmax(Z):
+                ax.contour(xs, ys, Z, levels=[0.0], colors=[PALETTE[0]], linewidths=1.5)
         if d.get("point"):
             ax.plot(*d["point"], marker="o", color=PALETTE[5], linestyle="none", label="plotted values")
         sc = d["scale_tex"]
@@ -924,7 +934,8 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
         Z = np.asarray(d["timelike"], dtype=float)
         X, Y = R * np.sin(T), R * np.cos(T)
         ax.contourf(X, Y, Z, levels=[0.5, 1.5], colors=[PALETTE[6]], hatches=["//"], alpha=0.6)
-        ax.contour(X, Y, Z, levels=[0.5], colors=[PALETTE[0]], linewidths=1)
+        if Z.min() < 0.5 < Z.max():
+            ax.contour(X, Y, Z, levels=[0.5], colors=[PALETTE[0]], linewidths=1)
         for k, rh in enumerate(d["horizons"]):
             ax.plot(rh * np.sin(ths), rh * np.cos(ths), color=PALETTE[0], linestyle=":", linewidth=1,
                     label=f"horizon ${rh:.4g}$")
