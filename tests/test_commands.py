@@ -30,7 +30,7 @@ def test_build_folder_writes_one_report_per_entry(tmp_path):
     (src / "a.yaml").write_text(SCHWARZSCHILD.read_text())
     (src / "b.yaml").write_text(DEMO.read_text())
     out = tmp_path / "out"
-    assert cli.main(["build", str(src), "-o", str(out), "-f", "md", "-f", "tex", "-q"]) == 0
+    assert cli.main(["build", str(src), "-o", str(out), "-f", "md", "-f", "tex", "-q", "--no-figures"]) == 0
     assert sorted(p.name for p in out.iterdir()) == [
         "demo-veiled-black-hole.md", "demo-veiled-black-hole.tex", "schwarzschild.md", "schwarzschild.tex"]
 
@@ -78,12 +78,16 @@ def test_build_passes_options_to_the_api(tmp_path, monkeypatch):
     (ident, name, opts), = seen
     assert (ident, name) == ("schwarzschild", "x.tex")
     assert opts == api.BuildOptions(fmt=None, standalone=False, section_level=0, template_dir=str(tmp_path),
-                                    force=False)
+                                    force=False, figures=True)
 
 
 def test_demo_builds_the_embedded_spacetime(tmp_path):
     out = tmp_path / "demo"
     assert cli.main(["demo", "-o", str(out), "--no-pdf"]) == 0
-    assert sorted(p.name for p in out.iterdir()) == [
+    names = sorted(p.name for p in out.iterdir())
+    assert [n for n in names if not n.endswith((".pdf", ".png"))] == [
         "demo-veiled-black-hole.json", "demo-veiled-black-hole.md", "demo-veiled-black-hole.tex"]
+    # The demo's figures sit next to its reports, and the Markdown report points at them.
+    assert "demo-veiled-black-hole-profiles.png" in names
+    assert "(demo-veiled-black-hole-profiles.png)" in (out / "demo-veiled-black-hole.md").read_text()
     assert "veiled black hole" in (out / "demo-veiled-black-hole.md").read_text()

@@ -46,6 +46,7 @@ def _report_options(p: argparse.ArgumentParser) -> None:
                    help="heading level of the report's title (default: section)")
     p.add_argument("--template", metavar="DIR", help="folder with your own templates (run sandboxed)")
     p.add_argument("--force", action="store_true", help="overwrite files texgen did not write")
+    p.add_argument("--no-figures", action="store_true", help="do not draw figures next to the report")
     p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
     p.add_argument("--strict", action="store_true", help="exit 1 (after writing) when a claim fails")
 
@@ -71,7 +72,8 @@ def cmd_build(args: argparse.Namespace) -> int:
                     target = out.with_suffix("." + fmt)
                 opts = api.BuildOptions(fmt=fmt, standalone=not args.fragment,
                                         section_level=_LEVELS[args.section_level],
-                                        template_dir=args.template, force=args.force)
+                                        template_dir=args.template, force=args.force,
+                                        figures=not args.no_figures)
                 written = api.build_report(model, target, opts, curvature=cv)
                 if not args.quiet:
                     print(f"{path}: wrote {written}")
