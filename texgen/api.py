@@ -94,6 +94,8 @@ class BuildOptions:
     section_level: int = 1
     template_dir: str | None = None
     force: bool = False
+    figures: bool = True
+    """Draw figures next to LaTeX and Markdown reports (needs matplotlib)."""
 
 
 SECTION_MODULES = ("texgen.claims",)
@@ -153,8 +155,13 @@ def extra_results(spacetime: Spacetime, curvature, missing: list[dict] | None = 
     return out
 
 
-def report_text(spacetime: Spacetime, curvature, fmt: str, options: BuildOptions | None = None) -> str:
-    """The report of ``spacetime`` in format ``fmt`` as text."""
+def report_text(spacetime: Spacetime, curvature, fmt: str, options: BuildOptions | None = None,
+                figures: dict | None = None, missing: list[dict] | None = None) -> str:
+    """The report of ``spacetime`` in format ``fmt`` as text.
+
+    ``figures`` is the figures section (see :func:`draw_report_figures`); ``missing``
+    lists stages that were not carried out, for the report's "Not computed" section.
+    """
     from .render import dump_json, render
     from .report import ExpressionPrinter, ReportOptions, build_context, build_results
 
@@ -167,10 +174,13 @@ def report_text(spacetime: Spacetime, curvature, fmt: str, options: BuildOptions
     ropts = ReportOptions(section_level=options.section_level)
     skipped: list[dict] = []
     sections = extra_sections(spacetime, curvature, ExpressionPrinter(spacetime, ropts), skipped)
+    if figures:
+        sections.append(figures)
     ctx = build_context(spacetime, curvature, ropts, extra_sections=sections)
+    ctx["missing"].extend(skipped)
+    ctx["missing"].extend(missing or [])
     ctx["standalone"] = options.standalone
     template = {"tex": "report.tex.j2", "md": "report.md.j2"}.get(fmt)
-    ctx["missing"].extend(skipped)
     if template is None:
         raise RenderError(f"Expected one of: 'tex', 'md', 'json' but received: '{fmt}'")
     return render(template, ctx, options.template_dir)
@@ -204,7 +214,31 @@ def build_report(spacetime: Spacetime | str | Path, output: str | Path, options:
         raise RenderError(f"Cannot tell the report format from '{out.name}'",
                           hint="use an extension .tex, .md or .json, or --format")
     cv = curvature or derive(model, budget=budget, progress=progress, jobs=jobs)
-    return write_atomic(out, report_text(model, cv, fmt, options), force=options.force)
+    section, missing = None, []
+    if fmt in ("tex", "md") and options.figures:
+        section, missing = draw_report_figures(model, cv, out)
+    return write_atomic(out, report_text(model, cv, fmt, options, section, missing), force=options.force)
+
+
+def draw_report_figures(spacetime: Spacetime, curvature, report: Path) -> tuple[dict | None, list[dict]]:
+    """Draw the figures that apply next to ``report``; return their section and what was skipped.
+
+    Figures are named after the report (``kerr.tex`` gets ``kerr-profiles.pdf`` and
+    ``kerr-profiles.png``), so LaTeX and Markdown reports of one entry share them.
+    """
+    from . import figures
+    from .errors import DerivationError
+
+    # The .tex and .md reports of one entry share the drawing: keep it with the curvature.
+    memo = curvature.__dict__.setdefault("_report_figures", {})
+    key = (str(report.parent.resolve()), report.stem)
+    if key not in memo:
+        try:
+            drawn = figures.draw_figures(spacetime, curvature, report.parent, report.stem, formats=("pdf", "png"))
+            memo[key] = (figures.report_section(spacetime, curvature, None, drawn), [])
+        except (RenderError, DerivationError) as exc:
+            memo[key] = (None, [{"stage": "figures", "reason": exc.message}])
+    return memo[key]
 
 
 def compile_pdf(tex: str | Path, *, runs: int = 2) -> Path:
