@@ -1021,13 +1021,29 @@ def _point_text(pt: dict) -> dict:
     return {expression_to_text(k): f"{float(v):.6g}" for k, v in pt.items()}
 
 
+_DISPLAY = None
+"""The curvature object whose short display form the section's formulas use (set per section)."""
+
+
 def _math(p, lhs: str, expr) -> dict:
-    """One formula for the section: inline when short (``short``), else a display with broken lines."""
+    """One formula for the section: inline when short (``short``), else a display with broken lines.
+
+    A formula whose lines still do not fit (a denominator too wide to break) is marked
+    ``too_long``; the templates then point to the JSON results instead of overflowing the page.
+    """
     from .latex import estimate_width
     from .report import equation
 
+    if (_DISPLAY is not None and isinstance(expr, sp.Expr) and not expr.is_number
+            and sp.count_ops(expr) < tools.MAX_OPS):
+        try:
+            expr = _DISPLAY.display(expr)
+        except (DerivationError, *tools._SOLVE_ERRORS):
+            pass
     eq = equation(p, lhs, expr, text=False)
     eq["short"] = not eq["multiline"] and estimate_width(lhs + " = " + eq["latex"]) < 40
+    limit = p.options.max_width + 6
+    eq["too_long"] = any(estimate_width(line) > limit for line in eq["lines"])
     return eq
 
 
@@ -1058,7 +1074,15 @@ def report_section(spacetime, curvature, printer) -> dict | None:
     except DerivationError as exc:
         return {"template_tex": "sections/analysis.tex.j2", "template_md": "sections/analysis.md.j2",
                 "failed": exc.message, "matter": None, "conditions": [], "structure": None, "notes": []}
-    p = printer
+    global _DISPLAY
+    _DISPLAY = curvature
+    try:
+        return _section(st, an, printer)
+    finally:
+        _DISPLAY = None
+
+
+def _section(st, an, p) -> dict | None:
     s: dict = {"template_tex": "sections/analysis.tex.j2", "template_md": "sections/analysis.md.j2",
                "failed": "", "notes": list(an.notes)}
     vacuum = an.hawking_ellis_type == "vacuum"
@@ -1071,8 +1095,8 @@ def report_section(spacetime, curvature, printer) -> dict | None:
                            "eulerian": "Eulerian observers (normal to t = const)",
                            "tetrad": "the tetrad given in the file"}.get(an.frame_kind or "", ""),
             "type": an.hawking_ellis_type,
-            "density": equation(p, r"\rho", an.energy_density),
-            "pressures": [equation(p, f"p_{{({i})}}", x) for i, x in enumerate(an.pressures, start=1)],
+            "density": _math(p, r"\rho", an.energy_density),
+            "pressures": [_math(p, f"p_{{({i})}}", x) for i, x in enumerate(an.pressures, start=1)],
             "coupling_tex": p.tex(st.conventions.coupling),
         }
     s["matter"] = matter
