@@ -234,8 +234,8 @@ def relation_results(entries: dict[str, Spacetime], ids: Iterable[str] | None = 
             errors.append(_error(model, [], f"Expected a list of relations but received: {section.data!r}"))
             continue
         for i, rel in enumerate(section.data):
+            kinds = [k for k in ("limit_of", "same_as") if isinstance(rel, dict) and k in rel]
             try:
-                kinds = [k for k in ("limit_of", "same_as") if isinstance(rel, dict) and k in rel]
                 if len(kinds) != 1:
                     raise _error(model, [i], "Expected exactly one of: 'limit_of', 'same_as' but received: "
                                  f"{rel!r}")
@@ -246,10 +246,11 @@ def relation_results(entries: dict[str, Spacetime], ids: Iterable[str] | None = 
                     results.append(_check_map(model, other, rel, i, curvature(model), curvature))
             except ConfigError as exc:
                 errors.append(exc)
-            except TexgenError as exc:  # a derivation the engine could not carry out
-                results.append(RelationResult(model.id, model.source, i, next(iter(rel), "?"),
-                                              str(rel.get("limit_of") or rel.get("same_as")), False, "fails",
-                                              f"cannot be checked: {exc.format_message()}"))
+            except (TexgenError, ValueError, TypeError, NotImplementedError, sp.PolynomialError) as exc:
+                # a derivation or limit the engine or sympy could not carry out
+                why = exc.format_message() if isinstance(exc, TexgenError) else f"{type(exc).__name__}: {exc}"
+                results.append(RelationResult(model.id, model.source, i, kinds[0], str(rel[kinds[0]]), False,
+                                              "fails", f"cannot be checked: {why}"))
     return results, errors
 
 
