@@ -1,0 +1,131 @@
+"""Heavy spacetimes: independent curvature stages in worker processes, budget failures kept.
+
+After the Riemann tensor (all indices down), the Ricci tensor and the Ricci scalar
+are known, the mixed Riemann tensor, the Weyl tensor and the invariants depend on
+nothing but those; each group is computed by its own worker process.  On platforms
+with ``fork`` the workers inherit the parent's computed stages; elsewhere each gets
+the (picklable) model and starts from it.  Results come back as sympy objects and
+are the ones a serial run gives (tests/test_heavy.py compares their ``srepr``).
+"""
+from __future__ import annotations
+
+import multiprocessing
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from typing import Any
+
+from .derive import Curvature
+from .errors import BudgetExceeded, DerivationError
+
+#: Public quantities worked out together in one worker (later ones reuse earlier ones).
+GROUPS: tuple[tuple[str, ...], ...] = (
+    ("riemann",),
+    ("weyl", "weyl_squared"),
+    ("kretschmann", "ricci_squared", "invariant_identity"),
+)
+_NEEDS_THREE = {"weyl", "weyl_squared", "invariant_identity"}
+
+_inherited: Curvature | None = None  # the parent's curvature, seen by forked workers
+
+
+class HeavyCurvature(Curvature):
+    """A :class:`~texgen.derive.Curvature` for long derivations.
+
+    A stage that went over its budget raises the same
+    :class:`~texgen.errors.BudgetExceeded` again at once when asked again (the
+    report asks for the Riemann tensor many times; each would spend the budget
+    anew), and :meth:`compute_parallel` fills the independent stages from workers.
+    """
+
+    def __init__(self, *args: Any, **kw: Any):
+        super().__init__(*args, **kw)
+        self._over_budget: dict[str, BudgetExceeded] = {}
+        self.worker_timings: dict[str, float] = {}
+        """Wall seconds per stage spent in worker processes (not in :attr:`timings`)."""
+
+    @property
+    def budget_failures(self) -> tuple[BudgetExceeded, ...]:
+        """The distinct budget failures met so far, first first."""
+        seen: dict[str, BudgetExceeded] = {}
+        for exc in self._over_budget.values():
+            seen.setdefault(exc.message, exc)
+        return tuple(seen.values())
+
+    def _stage(self, name: str, compute):
+        if name in self._over_budget:
+            raise self._over_budget[name]
+        try:
+            return super()._stage(name, compute)
+        except BudgetExceeded as exc:
+            self._over_budget[name] = exc
+            raise
+
+    def compute_parallel(self, jobs: int) -> list[BudgetExceeded]:
+        """Compute the Riemann, Weyl and invariant stages in up to ``jobs`` workers.
+
+        Returns the budget failures met (they are kept and raised again when the
+        quantity is asked for); other errors are left for the serial path to raise.
+        """
+        if not isinstance(jobs, int) or isinstance(jobs, bool) or jobs < 1:
+            raise DerivationError(f"Expected a positive number of jobs but received: {jobs!r}")
+        groups = [tuple(q for q in grp if self.dimension >= 3 or q not in _NEEDS_THREE) for grp in GROUPS]
+        groups = [g for g in groups if g and any(q not in self._cache for q in g)]
+        if jobs == 1 or not groups:
+            return []
+        fork = "fork" in multiprocessing.get_all_start_methods()
+        try:
+            if fork:
+                self.ricci_scalar  # the shared inputs, inherited by every worker
+        except BudgetExceeded as exc:
+            return [exc]
+        except DerivationError:
+            return []  # the serial path reports it where it is asked for
+        global _inherited
+        failures: list[BudgetExceeded] = []
+        ctx = multiprocessing.get_context("fork" if fork else "spawn")
+        _inherited = self if fork else None
+        try:
+            with ProcessPoolExecutor(max_workers=min(jobs, len(groups)), mp_context=ctx) as pool:
+                arg = None if fork else (self.spacetime, self.budget, self.backend)
+                futures = {pool.submit(_work, grp, arg): grp for grp in groups}
+                done = 0
+                for fut in as_completed(futures):
+                    values, timings, failure = fut.result()
+                    for name, value in values.items():
+                        self._cache.setdefault(name, value)
+                    for name, sec in timings.items():
+                        self.worker_timings[name] = self.worker_timings.get(name, 0.0) + sec
+                    if failure is not None:
+                        exc = BudgetExceeded(failure[0], stage=failure[1], component=failure[2])
+                        self._over_budget.setdefault(failure[3], exc)
+                        failures.append(exc)
+                    done += 1
+                    if self.progress is not None:
+                        self.progress("parallel stages", done, len(groups))
+        finally:
+            _inherited = None
+        return failures
+
+
+def _work(names: tuple[str, ...], arg) -> tuple[dict, dict, tuple | None]:
+    """In a worker: (values by name, wall seconds by stage, budget failure or None)."""
+    if arg is None:
+        cv = _inherited
+        before = dict(cv.timings)
+    else:
+        spacetime, budget, backend = arg
+        cv = Curvature(spacetime, budget=budget, backend=backend)
+        before = {}
+    cv.progress = None  # only the parent draws
+    values: dict[str, Any] = {}
+    failure = None
+    for name in names:
+        try:
+            values[name] = getattr(cv, name)
+        except BudgetExceeded as exc:
+            # exceptions with extra fields do not survive pickling: send the parts
+            failure = (exc.message, exc.stage, exc.component, name)
+            break
+        except DerivationError:
+            break  # the parent's serial path raises it where it is asked for
+    timings = {k: v - before.get(k, 0.0) for k, v in cv.timings.items() if v - before.get(k, 0.0) > 0}
+    return values, timings, failure
