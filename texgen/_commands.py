@@ -6,7 +6,7 @@ import sys
 from pathlib import Path
 
 from . import api
-from .errors import ConfigError, TexgenError
+from .errors import BudgetExceeded, ConfigError, TexgenError
 
 
 def register(sub) -> None:
@@ -19,6 +19,12 @@ def register(sub) -> None:
     p.add_argument("-o", "--output", metavar="OUT", required=True,
                    help="report file (.tex, .md, .json) or, for several inputs, a folder")
     _report_options(p)
+    p.add_argument("--budget", type=_positive(float), metavar="SECONDS",
+                   help="wall seconds allowed to each derivation stage; what goes over is listed as not computed")
+    p.add_argument("--max-terms", type=_positive(int), metavar="N",
+                   help="largest number of terms allowed in one component")
+    p.add_argument("--jobs", type=_positive(int), metavar="N", default=1,
+                   help="worker processes for the Riemann, Weyl and invariant stages (default 1)")
     p.set_defaults(run=cmd_build)
 
     p = sub.add_parser("demo", help="build the report of the embedded demo spacetime",
@@ -54,6 +60,38 @@ def _report_options(p: argparse.ArgumentParser) -> None:
 _LEVELS = {"chapter": 0, "section": 1, "subsection": 2}
 
 
+def _positive(kind):
+    def parse(text: str):
+        try:
+            value = kind(text)
+        except ValueError:
+            value = None
+        if value is None or not value > 0:
+            raise argparse.ArgumentTypeError(f"Expected a positive number but received: '{text}'")
+        return value
+
+    parse.__name__ = kind.__name__  # argparse names the type in its messages
+    return parse
+
+
+def _derive_options(args: argparse.Namespace, path) -> dict:
+    """Keyword arguments for ``api.derive`` from build's budget, jobs and progress options."""
+    from ._progress import ProgressBar
+
+    kw: dict = {}
+    seconds, terms = getattr(args, "budget", None), getattr(args, "max_terms", None)
+    if seconds is not None or terms is not None:
+        from .derive import Budget
+
+        kw["budget"] = Budget(seconds=seconds, max_terms=terms)
+    if getattr(args, "jobs", 1) != 1:
+        kw["jobs"] = args.jobs
+    bar = ProgressBar(sys.stderr, enabled=not args.quiet, label=str(path))
+    if bar.active:
+        kw["progress"] = bar
+    return kw
+
+
 def cmd_build(args: argparse.Namespace) -> int:
     files = api.spacetime_files(args.files)
     if not files:
@@ -65,7 +103,12 @@ def cmd_build(args: argparse.Namespace) -> int:
     for path in files:
         try:
             model = api.load_spacetime(path)
-            cv = api.derive(model)
+            kw = _derive_options(args, path)
+            try:
+                cv = api.derive(model, **kw)
+            finally:
+                if "progress" in kw:
+                    kw["progress"].close()
             for fmt in formats:
                 target = out / f"{model.id}.{fmt}" if many else out
                 if not many and fmt is not None and len(formats) > 1:
@@ -74,10 +117,19 @@ def cmd_build(args: argparse.Namespace) -> int:
                                         section_level=_LEVELS[args.section_level],
                                         template_dir=args.template, force=args.force,
                                         figures=not args.no_figures)
-                written = api.build_report(model, target, opts, curvature=cv)
+                try:
+                    written = api.build_report(model, target, opts, curvature=cv)
+                finally:
+                    if "progress" in kw:
+                        kw["progress"].close()
                 if not args.quiet:
                     print(f"{path}: wrote {written}")
-            claims_failed += _warn_failed_claims(path, model, cv)
+            try:
+                claims_failed += _warn_failed_claims(path, model, cv)
+            except BudgetExceeded as exc:
+                print(f"warning: {path}: claims not decided: {exc.message}", file=sys.stderr)
+            for exc in getattr(cv, "budget_failures", ()):
+                print(f"warning: {path}: not computed: {exc.message}", file=sys.stderr)
         except TexgenError as exc:
             if not many:
                 raise
