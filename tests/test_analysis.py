@@ -201,3 +201,113 @@ def test_bad_tetrad_is_a_config_error(rows, message):
         analysis.analyse(st, derive(st))
     assert message in info.value.message
     assert "tetrad" in str(info.value.location)
+
+
+# -- library files -------------------------------------------------------------
+
+import time
+from pathlib import Path
+
+LIBRARY = Path(__file__).resolve().parent.parent / "metrics_yaml"
+LIBRARY_FILES = sorted(LIBRARY.rglob("*.yaml"))
+HANG_GUARD_S = 120
+"""Per-file bound against hangs only (the targets are measured by hand, see bench/)."""
+
+
+@pytest.mark.parametrize("path", LIBRARY_FILES, ids=lambda p: p.stem)
+def test_every_library_file_analyses(path):
+    """Every library entry analyses without an exception (project rule: no tracebacks)."""
+    from texgen.api import load_spacetime
+
+    st = load_spacetime(path)
+    cv = derive(st)
+    start = time.process_time()
+    an = analysis.analyse(st, cv)
+    assert time.process_time() - start < HANG_GUARD_S
+    assert set(an.energy_conditions) <= set(analysis.CONDITIONS)
+
+
+def _library(name):
+    from texgen.api import load_spacetime
+
+    st = load_spacetime(next(p for p in LIBRARY_FILES if p.stem == name))
+    cv = derive(st)
+    return st, cv, analysis.analyse(st, cv)
+
+
+def test_alcubierre_eulerian_energy_density():
+    """Alcubierre 1994 Class. Quantum Grav. 11, L73, eq. (19): rho = -v^2 (df/dr_s)^2 (y^2 + z^2)/(32 pi r_s^2)."""
+    st, cv, an = _library("alcubierre")
+    t, x, y, z, v, R, s = (_sym(st, n) for n in ("t", "x", "y", "z", "v", "R", "sigma"))
+    rs = sp.sqrt((x - v * t) ** 2 + y**2 + z**2)
+    df = s * (1 / sp.cosh(s * (rs + R)) ** 2 - 1 / sp.cosh(s * (rs - R)) ** 2) / (2 * sp.tanh(s * R))
+    expected = -v**2 * (y**2 + z**2) * df**2 / (32 * sp.pi * rs**2)
+    assert an.frame_kind == "tetrad"
+    assert cv.is_zero(an.energy_density - expected)
+    # negative in the wall: at y = 1 inside the bubble wall df != 0
+    point = {t: 0, x: 0, y: 1, z: 0, v: sp.Rational(1, 2), R: 1, s: 2}
+    assert analysis.tools.value_at(an.energy_density, point) < 0
+    assert an.energy_conditions["weak"].status == "violated"
+
+
+def test_kerr_surface_gravity():
+    """Wald 1984 §12.5 / Poisson 2004 §5.3: kappa± = (r± - r∓)/(2 (r±^2 + a^2)) (signed; negative inside)."""
+    st, cv, an = _load(KERR)
+    a = _sym(st, "a")
+    rp, rm = an.horizons
+    expected = ((rp - rm) / (2 * (rp**2 + a**2)), (rm - rp) / (2 * (rm**2 + a**2)))
+    pt = {_sym(st, "M"): 1, a: sp.Rational(3, 5)}
+    got = [analysis.tools.value_at(k, pt) for k in an.surface_gravities]
+    want = [analysis.tools.value_at(e, pt) for e in expected]
+    assert [round(g - w, 20) for g, w in zip(got, want)] == [0, 0]
+    # M = 1, a = 3/5: r± = 9/5, 1/5, so kappa+ = (8/5)/(2 (81/25 + 9/25)) = 2/9
+    assert got[0] == pytest.approx(2 / 9, rel=1e-15)
+    assert analysis.tools.value_at(an.hawking_temperatures[0], pt) == pytest.approx(want[0] / (2 * math.pi), rel=1e-14)
+
+
+def test_reissner_nordstrom_isco_numerically():
+    """Reissner–Nordström ISCO: the largest root of M r^3 - 6 M^2 r^2 + 9 M Q^2 r - 4 Q^4 = 0
+    (e.g. Pugliese, Quevedo & Ruffini 2011 Phys. Rev. D 83, 104052, recalled), solved with mpmath."""
+    import mpmath
+
+    st, cv, an = _library("reissner_nordstrom")
+    M, Q = (float(an.parameter_point[_sym(st, n)]) for n in ("M", "Q"))
+    roots = mpmath.polyroots([M, -6 * M**2, 9 * M * Q**2, -4 * Q**4])
+    expected = max(float(mpmath.re(x)) for x in roots if abs(mpmath.im(x)) < 1e-12)
+    assert float(an.isco) == pytest.approx(expected, rel=1e-10)
+
+
+def test_ingoing_eddington_finkelstein_cones_tip_over():
+    """Ingoing Eddington–Finkelstein (MTW 1973 §31.4): outgoing rays dr/dv = (1 - 2M/r)/2,
+    ingoing v = const; for r < 2M both point to decreasing r."""
+    st, cv, an = _library("schwarzschild_eddington_finkelstein_ingoing")
+    M, r = _sym(st, "M"), _sym(st, "r")
+    assert len(an.null_directions) == 1
+    assert sp.simplify(an.null_directions[0] - (1 - 2 * M / r) / 2) == 0
+    assert an.cone_tilt == "r < 2*M"
+
+
+def test_demo_parameter_degeneracy_is_not_a_singularity():
+    """A locus without coordinates (ell = 0) is a degenerate parameter value, not a place (common practice)."""
+    st, cv, an = _library("veiled_black_hole")
+    ell, r = _sym(st, "ell"), _sym(st, "r")
+    assert sp.Eq(ell, 0, evaluate=False) in an.parameter_degeneracies
+    assert all(x.free_symbols & set(st.coordinate_symbols) for x in an.curvature_singularities)
+    assert sp.Eq(r, 0, evaluate=False) in an.curvature_singularities
+
+
+# -- compiled reports ------------------------------------------------------------
+
+@pytest.mark.parametrize("name", ["veiled_black_hole", "reissner_nordstrom", "kerr", "morris_thorne"])
+def test_report_with_analysis_compiles_without_overfull_lines(name, tmp_path, monkeypatch):
+    """The analysis section breaks long formulas: pdflatex reports no error and no overfull box > 3 pt."""
+    from test_report import _compile, _overfull
+
+    from texgen import api
+
+    monkeypatch.setattr(api, "SECTION_MODULES", ("texgen.analysis", "texgen.claims"))
+    path = next(p for p in LIBRARY_FILES if p.stem == name)
+    tex = tmp_path / f"{name}.tex"
+    api.build_report(path, tex)
+    assert "Causal structure" in tex.read_text()
+    assert _overfull(_compile(tex)) == []
