@@ -327,15 +327,15 @@ def test_term_budget_names_stage_and_component():
     assert isinstance(exc, errors.DerivationError)
 
 
-def test_budget_exceeded_is_a_clean_cli_error(monkeypatch, capsys, tmp_path):
-    """A budget stop reaches the terminal as 'error: ...' with exit 2, never a traceback."""
-    real = api.derive
-    monkeypatch.setattr(api, "derive", lambda model, **kw: real(model, budget=Budget(max_terms=1)))
-    assert cli.main(["build", str(KERR), "-o", str(tmp_path / "k.tex")]) == 2
-    _, err = capsys.readouterr()
-    assert err.startswith("error: stage '") and "has more than 1 terms" in err
-    assert "Traceback" not in err
-    assert not list(tmp_path.iterdir())
+def test_budget_exceeded_in_build_is_a_warning_not_a_traceback(tmp_path, capsys):
+    """``build --max-terms 1``: the stages over budget are named on stderr, the report is still written."""
+    target = tmp_path / "k.tex"
+    assert cli.main(["build", str(KERR), "-o", str(target), "--max-terms", "1", "-q"]) == 0
+    out, err = capsys.readouterr()
+    stop = "stage 'christoffel_first': component Gamma_001 has more than 1 terms"
+    assert out == ""
+    assert err == f"warning: {KERR}: claims not decided: {stop}\nwarning: {KERR}: not computed: {stop}\n"
+    assert written_by_texgen(target)
 
 
 # -- nothing lost ------------------------------------------------------------
@@ -461,7 +461,7 @@ def test_demo_force_reaches_the_writer(monkeypatch, tmp_path, capsys):
 # -- determinism ---------------------------------------------------------------
 
 def test_kerr_report_is_byte_identical_across_hash_seeds(tmp_path):
-    """The Kerr report (LaTeX and JSON) from two processes with different PYTHONHASHSEED."""
+    """The Kerr report (LaTeX and JSON, and its figures) from two processes with different PYTHONHASHSEED."""
     procs = []
     for seed in ("0", "4242"):
         out = tmp_path / seed
@@ -473,8 +473,10 @@ def test_kerr_report_is_byte_identical_across_hash_seeds(tmp_path):
     for out, proc in procs:
         assert proc.wait(timeout=600) == 0
         outputs.append({p.name: p.read_bytes() for p in sorted(out.iterdir())})
-    assert outputs[0].keys() == {"kerr.tex", "kerr.json"}
-    assert outputs[0] == outputs[1]
+    assert {"kerr.tex", "kerr.json"} <= outputs[0].keys()
+    assert outputs[0].keys() == outputs[1].keys()
+    for name in sorted(outputs[0]):  # the report, and whatever figures the build draws with it
+        assert outputs[0][name] == outputs[1][name], name
 
 
 KILLED_MID_WRITE = """\
