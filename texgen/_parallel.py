@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import multiprocessing
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
 from .derive import Curvature
@@ -81,29 +82,34 @@ class HeavyCurvature(Curvature):
             return []  # the serial path reports it where it is asked for
         global _inherited
         failures: list[BudgetExceeded] = []
-        ctx = multiprocessing.get_context("fork" if fork else "spawn")
         _inherited = self if fork else None
         try:
-            with ProcessPoolExecutor(max_workers=min(jobs, len(groups)), mp_context=ctx) as pool:
-                arg = None if fork else (self.spacetime, self.budget, self.backend)
-                futures = {pool.submit(_work, grp, arg): grp for grp in groups}
-                done = 0
-                for fut in as_completed(futures):
-                    values, timings, failure = fut.result()
-                    for name, value in values.items():
-                        self._cache.setdefault(name, value)
-                    for name, sec in timings.items():
-                        self.worker_timings[name] = self.worker_timings.get(name, 0.0) + sec
-                    if failure is not None:
-                        exc = BudgetExceeded(failure[0], stage=failure[1], component=failure[2])
-                        self._over_budget.setdefault(failure[3], exc)
-                        failures.append(exc)
-                    done += 1
-                    if self.progress is not None:
-                        self.progress("parallel stages", done, len(groups))
+            self._run_pool(jobs, groups, fork, failures)
+        except (BrokenProcessPool, OSError):
+            pass  # a worker died (memory?) or none could start: the serial path computes the rest
         finally:
             _inherited = None
         return failures
+
+    def _run_pool(self, jobs: int, groups: list, fork: bool, failures: list) -> None:
+        ctx = multiprocessing.get_context("fork" if fork else "spawn")
+        with ProcessPoolExecutor(max_workers=min(jobs, len(groups)), mp_context=ctx) as pool:
+            arg = None if fork else (self.spacetime, self.budget, self.backend)
+            futures = {pool.submit(_work, grp, arg): grp for grp in groups}
+            done = 0
+            for fut in as_completed(futures):
+                values, timings, failure = fut.result()
+                for name, value in values.items():
+                    self._cache.setdefault(name, value)
+                for name, sec in timings.items():
+                    self.worker_timings[name] = self.worker_timings.get(name, 0.0) + sec
+                if failure is not None:
+                    exc = BudgetExceeded(failure[0], stage=failure[1], component=failure[2])
+                    self._over_budget.setdefault(failure[3], exc)
+                    failures.append(exc)
+                done += 1
+                if self.progress is not None:
+                    self.progress("parallel stages", done, len(groups))
 
 
 def _work(names: tuple[str, ...], arg) -> tuple[dict, dict, tuple | None]:
