@@ -217,15 +217,16 @@ def real_roots(expr: sp.Expr, var: sp.Symbol) -> list[sp.Expr] | None:
 
 
 def negative_region(expr: sp.Expr, var: sp.Symbol, point: dict, lower: float | None,
-                    upper: float | None = None) -> list[tuple]:
+                    upper: float | None = None) -> list[tuple] | None:
     """Intervals of ``var`` (at the other values in ``point``) where ``expr < 0``.
 
     Returns ``(left, right)`` pairs of sympy boundaries (closed-form roots or range ends
-    or ``None`` for unbounded) or an empty list; ``None`` entries mean the boundary is open.
+    or ``None`` for unbounded), an empty list when ``expr`` is nowhere negative, or None when
+    the roots have no closed form (nothing can be said).
     """
     roots = real_roots(expr, var)
     if roots is None:
-        return []
+        return None
     rest = {k: v for k, v in point.items() if k != var}
     located = []
     for r in roots:

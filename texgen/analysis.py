@@ -176,7 +176,9 @@ def _order_outer_first(roots: list[sp.Expr], point: dict) -> list[sp.Expr]:
     return sorted(roots, key=key)
 
 
-def _text_of_region(intervals: list[tuple], var: sp.Symbol, lower_known: bool) -> str | None:
+def _text_of_region(intervals: list[tuple] | None, var: sp.Symbol, lower_known: bool) -> str | None:
+    if not intervals:
+        return None
     parts = []
     for a, b in intervals:
         if a is None and b is None:
@@ -673,14 +675,21 @@ def _analyse(st, cv) -> Analysis:
     kfactors = _factors(K, cv) if K is not None else []
     coords = set(st.coordinate_symbols)
     degenerate: list = []
-    for f in kfactors:
+    if K is not None and K.atoms(sp.core.function.AppliedUndef):
+        # With free functions the numerator may cancel a vanishing denominator: no claim.
+        notes.append("the Kretschmann scalar depends on the free functions: whether it diverges where a "
+                     "denominator vanishes depends on them, so no singularity is classified")
+        free_functions = True
+    else:
+        free_functions = False
+    for f in ([] if free_functions else kfactors):
         if f.free_symbols & coords:
             curv_sing.extend(_zero_set(f, st, radial, ppoint))
         else:
             # No coordinate: a value of the parameters where the family degenerates, not a place.
             degenerate.append(sp.Eq(f, 0, evaluate=False))
     seen = list(kfactors)
-    for m in (st.metric, ginv):
+    for m in ((st.metric, ginv) if not free_functions else ()):
         for x in m:
             for f in _factors(cv.canonical(x), cv):
                 if any(cv.is_zero(f - y) or cv.is_zero(f + y) for y in seen):
@@ -766,13 +775,16 @@ def _analyse(st, cv) -> Analysis:
         gtt = cv.canonical(st.metric[ti, ti])
         sg = _signs(st)[ti]
         c_sym = st.conventions.c
-        clock = sp.sqrt(cv.canonical(sg * gtt))
-        if c_sym is not None and c_sym in gtt.free_symbols:
+        # Static clocks need a stationary chart: no metric component may depend on t.
+        t_sym = st.coordinate_symbols[ti]
+        stationary = not any(t_sym in cv.canonical(x).free_symbols for x in st.metric)
+        clock = sp.sqrt(cv.canonical(sg * gtt)) if stationary else None
+        if clock is not None and c_sym is not None and c_sym in gtt.free_symbols:
             clock = clock / c_sym
-        if radial is not None and (gtt.free_symbols & set(st.coordinate_symbols)) <= {radial}:
+        if clock is not None and radial is not None and (gtt.free_symbols & set(st.coordinate_symbols)) <= {radial}:
             iv = tools.negative_region(cv.canonical(sg * gtt), radial, ppoint | {radial: 1}, _lower(st, radial))
-            bad = _text_of_region(iv, radial, True)
-            static_region = ("everywhere in the declared range" if not bad
+            bad = _text_of_region(iv, radial, True) if iv is not None else None
+            static_region = (None if iv is None else "everywhere in the declared range" if not bad
                              else f"static observers cannot exist for {bad}")
         omega2, orbit_rate, photon, isco = _orbits(st, cv, radial, ppoint, horizons, hnum)
         if isinstance(isco, sp.Float):
@@ -1152,6 +1164,7 @@ def _section(st, an, p) -> dict | None:
             "orbit_rate": _math(p, r"\mathrm{d}\tau/\mathrm{d}t", an.orbit_clock_rate) if an.orbit_clock_rate is not None else None,
             "photon_sphere": _math(p, r_tex, an.photon_sphere) if an.photon_sphere is not None else None,
             "isco": _math(p, r_tex, an.isco) if an.isco is not None else None,
+            "isco_numeric": isinstance(an.isco, sp.Float),
         }
     s["structure"] = struct
     if not matter and not conds and not struct:
