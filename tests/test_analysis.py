@@ -314,3 +314,19 @@ def test_report_with_analysis_compiles_without_overfull_lines(name, tmp_path, mo
     api.build_report(st, tex, curvature=cv)
     assert "Causal structure" in tex.read_text()
     assert _overfull(_compile(tex)) == []
+
+
+@pytest.mark.parametrize("name", ["schwarzschild", "schwarzschild_painleve_gullstrand",
+                                  "schwarzschild_eddington_finkelstein_ingoing"])
+def test_schwarzschild_surface_gravity_in_every_chart(name):
+    """kappa = 1/(4M) is a property of the Killing horizon, not of the chart (Wald 1984 §12.5)."""
+    st, cv, an = _library(name)
+    assert an.horizons == (2 * _sym(st, "M"),)
+    assert an.surface_gravities == (1 / (4 * _sym(st, "M")),)
+
+
+def test_no_horizon_outside_the_declared_range():
+    """Schwarzschild interior (Schwarzschild 1916; MTW 1973 §23.7): r < R, and 2 M r^2 = R^3 lies outside."""
+    st, cv, an = _library("schwarzschild_interior")
+    assert an.horizons == ()
+    assert an.naked_condition is None

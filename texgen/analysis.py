@@ -144,6 +144,14 @@ def _radial(st) -> sp.Symbol | None:
     return None
 
 
+def _upper(st, sym, point) -> float | None:
+    """The declared upper bound of a coordinate at the sample parameters, or None."""
+    for c in st.coordinates:
+        if c.symbol == sym and c.range is not None and c.range.upper is not None:
+            return tools.value_at(sp.sympify(c.range.upper), point)
+    return None
+
+
 def _lower(st, sym) -> float | None:
     for c in st.coordinates:
         if c.symbol == sym and c.range is not None and c.range.lower is not None:
@@ -419,6 +427,8 @@ def _naked_condition(h, radial):
         return None
     pos_terms = [t for t in sp.Add.make_args(prim) if not t.could_extract_minus_sign()]
     neg_terms = [-t for t in sp.Add.make_args(prim) if t.could_extract_minus_sign()]
+    if (sp.Add(*neg_terms) - sp.Add(*pos_terms)).is_nonnegative:
+        return None  # impossible under the parameters' assumptions: the roots are always real
     return sp.StrictGreaterThan(sp.Add(*pos_terms), sp.Add(*neg_terms), evaluate=False)
 
 
@@ -443,11 +453,17 @@ def _factors(expr, cv=None):
 def _zero_set(f, st, radial, point):
     """Where the factor ``f`` vanishes: ``r = r_0`` when it depends on the radius only, else ``f = 0``."""
     coords = [s for s in st.coordinate_symbols if s in f.free_symbols]
+    # A factor positive for all real coordinates (g^2 + r^2 with g > 0) vanishes nowhere.
+    real = {s: sp.Dummy(str(s), real=True) for s in coords}
+    if f.xreplace(real).is_positive or (-f).xreplace(real).is_positive:
+        return []
     if coords == [radial] and radial is not None:
         roots = tools.real_roots(f, radial)
         if roots:
-            real = [r for r in roots if tools.value_at(r, point) is not None]
-            return [sp.Eq(radial, r, evaluate=False) for r in real]
+            lo, hi = _lower(st, radial), _upper(st, radial, point)
+            vals = [(r, tools.value_at(r, point)) for r in roots]
+            return [sp.Eq(radial, r, evaluate=False) for r, v in vals
+                    if v is not None and (lo is None or v >= lo) and (hi is None or v <= hi)]
     return [sp.Eq(f, 0, evaluate=False)]
 
 
@@ -464,12 +480,23 @@ def _surface_gravity(st, cv, radial, rh, point, h=None):
     sg = _signs(st)
     i = st.coordinate_symbols.index(radial)
     ginv = cv.inverse
-    if cv.is_zero(ginv[ti, ti]):
-        return None
-    n2 = cv.canonical(sg[ti] / ginv[ti, ti])
-    if cv.is_zero(n2):
-        return None
-    ratio = cv.canonical(sg[i] * ginv[i, i] / n2)
+    g = st.metric
+    if all(cv.is_zero(g[ti, j]) for j in range(st.dimension) if j not in (ti, i)):
+        # No rotation: the Killing vector ∂_t itself, κ² = -½ ∇_a ξ_b ∇^a ξ^b
+        # = (∂_r g_tt)² / (4 (g_tr² - g_tt g_rr)); right also in Painlevé–Gullstrand and
+        # Eddington–Finkelstein charts, where g^tt is not the lapse of ∂_t.
+        n2 = cv.canonical(sg[ti] * g[ti, ti])
+        det = cv.canonical(g[ti, i] ** 2 - g[ti, ti] * g[i, i])
+        if cv.is_zero(n2) or cv.is_zero(det):
+            return None
+        ratio = cv.canonical(1 / det)
+    else:
+        if cv.is_zero(ginv[ti, ti]):
+            return None
+        n2 = cv.canonical(sg[ti] / ginv[ti, ti])
+        if cv.is_zero(n2):
+            return None
+        ratio = cv.canonical(sg[i] * ginv[i, i] / n2)
     dn2 = cv.canonical(sp.diff(n2, radial))
     others = sorted((dn2.free_symbols | ratio.free_symbols) & set(st.coordinate_symbols) - {radial}, key=str)
     at_h = {k: v for k, v in point.items()} | {radial: sp.Float(tools.value_at(rh, point) or 0, 30)}
@@ -615,9 +642,10 @@ def _analyse(st, cv) -> Analysis:
         lower = _lower(st, radial)
         if roots is not None:
             keep = []
+            upper = _upper(st, radial, ppoint)
             for r in roots:
                 v = tools.value_at(r, ppoint)
-                if v is not None and (lower is None or v > lower):
+                if v is not None and (lower is None or v > lower) and (upper is None or v < upper):
                     keep.append(r)
             horizons = _order_outer_first(keep, ppoint)
             hnum = [tools.value_at(r, ppoint) for r in horizons]
