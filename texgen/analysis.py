@@ -1194,6 +1194,9 @@ def _section(st, an, p) -> dict | None:
             "isco": _math(p, r_tex, an.isco) if an.isco is not None else None,
             "isco_numeric": isinstance(an.isco, sp.Float),
         }
+    if struct is not None and not any(v for k, v in struct.items()
+                                      if k not in ("radial_tex", "isco_numeric", "parameter_point")):
+        struct = None  # an empty list would be a LaTeX error
     s["structure"] = struct
     if not matter and not conds and not struct:
         return None
