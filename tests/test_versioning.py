@@ -167,3 +167,13 @@ def test_diff_of_prose_only_changes_no_component():
     assert not d.physics_changed
     assert d.definition == ("title",)
     assert d.components == ()
+
+
+def test_hash_ignores_the_keyword_order_of_cached_symbols():
+    """sympy returns a cached Symbol made earlier with another keyword order; the hash must not see it."""
+    import sympy as sp
+
+    from texgen.versioning import _srepr
+
+    assert _srepr(sp.Symbol("Qv", positive=True, real=True)) == "Symbol('Qv', positive=True, real=True)"
+    assert _srepr(sp.Symbol("Qw", real=True, positive=True)) == "Symbol('Qw', positive=True, real=True)"

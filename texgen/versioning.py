@@ -27,6 +27,19 @@ RECORD_FILE = "VERSIONS.json"
 _SEMVER = re.compile(r"^(\d+)\.(\d+)\.(\d+)(?:-([0-9A-Za-z.\-]+))?$")
 
 
+_ATOM = re.compile(r"\b(Symbol|Dummy|Function)\('([^']*)'((?:, \w+=\w+)+)\)")
+
+
+def _srepr(expr: Any) -> str:
+    """srepr with each symbol's assumptions sorted: sympy caches symbols, and a cached one
+    keeps the keyword order it was first made with, which differs between processes."""
+    def fix(m: re.Match) -> str:
+        attrs = sorted(a.strip() for a in m[3].split(",") if a.strip())
+        return f"{m[1]}('{m[2]}', {', '.join(attrs)})"
+
+    return _ATOM.sub(fix, sp.srepr(expr))
+
+
 def _canon(expr: Any) -> str:
     """srepr of a canonical form: ``cancel`` makes ``1 - 2M/r`` and ``(r - 2M)/r`` the same."""
     if expr is None:
@@ -36,7 +49,7 @@ def _canon(expr: Any) -> str:
         e = sp.cancel(e)
     except (sp.PolynomialError, TypeError, ValueError, NotImplementedError):
         pass  # the expression as built is canonical enough for non-rational input
-    return sp.srepr(e)
+    return _srepr(e)
 
 
 def _range(rng: Range | None) -> list | None:
@@ -50,9 +63,9 @@ def physics_data(model: Spacetime) -> dict:
     conv = model.conventions
     n = model.dimension
     return {
-        "coordinates": [{"name": c.name, "symbol": sp.srepr(c.symbol), "range": _range(c.range),
+        "coordinates": [{"name": c.name, "symbol": _srepr(c.symbol), "range": _range(c.range),
                          "period": _canon(c.period)} for c in model.coordinates],
-        "parameters": {p.name: {"symbol": sp.srepr(p.symbol), "assumptions": sorted(p.assumptions),
+        "parameters": {p.name: {"symbol": _srepr(p.symbol), "assumptions": sorted(p.assumptions),
                                 "range": _range(p.range)} for p in model.parameters},
         "functions": {f.name: {"arguments": [str(a) for a in f.arguments],
                                "assumptions": sorted(f.assumptions)} for f in model.functions},
@@ -225,8 +238,8 @@ def _definition_changes(old: Spacetime, new: Spacetime) -> list[str]:
     for key in prose:
         a[key], b[key] = getattr(old, key), getattr(new, key)
     a["changelog"], b["changelog"] = list(old.changelog), list(new.changelog)
-    a["definitions"] = {d.name: sp.srepr(d.expression) for d in old.definitions}
-    b["definitions"] = {d.name: sp.srepr(d.expression) for d in new.definitions}
+    a["definitions"] = {d.name: _srepr(d.expression) for d in old.definitions}
+    b["definitions"] = {d.name: _srepr(d.expression) for d in new.definitions}
     for s in old.sections:
         a[s.key] = s.data
     for s in new.sections:
