@@ -186,7 +186,9 @@ class _Builder:
         v = node.value
         if isinstance(v, bool) or not isinstance(v, (int, float)):
             raise self.fail(node, "Only numbers are allowed as literals")
-        literal = ast.get_source_segment(self.source, node) or repr(v)
+        # Slice the one-line source directly: get_source_segment re-splits the whole
+        # text on every call, which made long expressions quadratic in their length.
+        literal = self.source[node.col_offset:node.end_col_offset] or repr(v)
         digits = sum(ch.isdigit() for ch in literal)
         if digits > MAX_INT_DIGITS:
             raise self.fail(node, f"Number literal has more than {MAX_INT_DIGITS} digits")

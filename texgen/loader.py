@@ -98,11 +98,17 @@ class _Converter:
         if isinstance(node, yaml.MappingNode):
             out: dict[str, Node] = {}
             for key_node, value_node in node.value:
+                if isinstance(key_node, yaml.ScalarNode) and key_node.tag not in _STANDARD_TAGS:
+                    raise self.fail(key_node, f"Unsupported YAML tag '{key_node.tag}'", path)
                 if not isinstance(key_node, yaml.ScalarNode) or key_node.tag == "tag:yaml.org,2002:null":
                     raise self.fail(key_node, "Mapping keys must be plain names", path)
                 if key_node.tag == "tag:yaml.org,2002:merge" or key_node.value == "<<":
                     raise self.fail(key_node, "YAML merge keys ('<<') are not supported", path)
-                key = str(self.loader.construct_object(key_node)) if key_node.tag != "tag:yaml.org,2002:str" else key_node.value
+                try:
+                    key = (str(self.loader.construct_object(key_node))
+                           if key_node.tag != "tag:yaml.org,2002:str" else key_node.value)
+                except yaml.constructor.ConstructorError as exc:
+                    raise self.fail(key_node, f"Cannot read key: {exc.problem}", path) from None
                 sub = f"{path}.{key}" if path else key
                 if key in out:
                     first = out[key]

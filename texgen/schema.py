@@ -726,7 +726,8 @@ def _definitions(b: _Builder, symbols: dict[str, sp.Symbol], fmap) -> list[Defin
             return False
         state[name] = 1
         for d in deps.get(name, []):
-            if d not in parsed:
+            if d not in parsed:  # its own error is reported already
+                state[name] = 2
                 return False
             if not visit(d, trail + [name]):
                 state[name] = 2
