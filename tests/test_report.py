@@ -158,7 +158,7 @@ def test_fragment_compiles_inside_host_document(tmp_path):
     assert r"\documentclass" not in fragment and r"\begin{document}" not in fragment
     assert r"\subsection*{" in fragment
     host = tmp_path / "host.tex"
-    host.write_text("\\documentclass{article}\n\\usepackage{amsmath,amssymb}\n\\usepackage[margin=2.5cm]{geometry}\n"
+    host.write_text("\\documentclass{article}\n\\usepackage{amsmath,amssymb,graphicx}\n\\usepackage[margin=2.5cm]{geometry}\n"
                     "\\begin{document}\n\\section{Appendix}\n\\input{a}\n\\input{b}\n\\end{document}\n")
     log = _compile(host)
     # Labels are namespaced by the spacetime id, so two appendices never clash.

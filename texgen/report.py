@@ -134,11 +134,26 @@ def tidy_trig(expr: sp.Expr) -> sp.Expr:
     return out
 
 
+MAX_LINES = 24
+"""Longest display printed in a report; longer results are in the JSON report only."""
+
+
 def equation(p: ExpressionPrinter, lhs: str, expr: sp.Expr, *, text: bool = True, label: str | None = None) -> dict:
-    """Plain data for one displayed equation ``lhs = expr`` (lines already broken)."""
+    """Plain data for one displayed equation ``lhs = expr`` (lines already broken).
+
+    A result too long to be read on paper (more than :data:`MAX_LINES` lines, or a
+    factor wider than the page that no break can split) is not typeset: the entry
+    says so (``omitted``) and the JSON report carries the expression.
+    """
     expr = tidy_trig(expr)
     lines = p.lines(expr, lead=lhs)
-    out = {"lhs": lhs, "lines": lines, "latex": " ".join(lines), "multiline": len(lines) > 1}
+    widest = max(estimate_width(line) for line in lines)
+    out = {"lhs": lhs, "lines": lines, "latex": " ".join(lines), "multiline": len(lines) > 1, "omitted": ""}
+    if len(lines) > MAX_LINES or widest > p.options.max_width * 1.1:
+        terms = len(sp.Add.make_args(sp.expand(sp.fraction(sp.factor_terms(expr))[0]))) \
+            if isinstance(expr, sp.Expr) else 0
+        out.update(lines=[], latex="", multiline=False,
+                   omitted=f"too long to typeset ({terms} terms in its numerator); it is in the JSON report")
     if label:
         out["label"] = label
     if text:
@@ -174,7 +189,7 @@ def _components(p: ExpressionPrinter, items, kernel: str, positions: str, *, tex
         lhs = p.symbol(kernel, positions, idx)
         eq = equation(p, lhs, value, text=text)
         eq["key"] = p.key(idx)
-        eq["short"] = not eq["multiline"] and estimate_width(eq["latex"]) < 40
+        eq["short"] = not eq["multiline"] and not eq["omitted"] and estimate_width(eq["latex"]) < 40
         out.append(eq)
     return out
 
@@ -373,7 +388,10 @@ def build_context(spacetime: Spacetime, curvature, options: ReportOptions | None
                 elif acc:
                     lines = [to_latex(acc[0], **gs)]
                 lines[-1] += " = 0"
-                ctx["geodesics"].append({"latex": " ".join(lines), "lines": lines})
+                too_big = len(lines) > MAX_LINES or max(map(estimate_width, lines)) > options.max_width * 1.1
+                ctx["geodesics"].append({
+                    "latex": "" if too_big else " ".join(lines), "lines": [] if too_big else lines,
+                    "omitted": too_big, "coordinate": p.coord_latex[len(ctx["geodesics"])]})
     return ctx
 
 
