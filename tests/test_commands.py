@@ -24,15 +24,24 @@ def test_build_unknown_extension_is_bad_input(tmp_path, capsys):
     assert err.startswith("error: Cannot tell the report format from 's.pdf'")
 
 
-def test_build_folder_writes_one_report_per_entry(tmp_path):
+def test_build_folder_writes_one_report_per_entry_and_an_index(tmp_path, monkeypatch):
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "cache"))
     src = tmp_path / "lib"
     src.mkdir()
     (src / "a.yaml").write_text(SCHWARZSCHILD.read_text())
     (src / "b.yaml").write_text(DEMO.read_text())
     out = tmp_path / "out"
-    assert cli.main(["build", str(src), "-o", str(out), "-f", "md", "-f", "tex", "-q", "--no-figures"]) == 0
+    assert cli.main(["build", str(src), "-o", str(out), "-f", "md", "-f", "tex", "-q", "--no-figures",
+                     "--jobs", "2"]) == 0
     assert sorted(p.name for p in out.iterdir()) == [
-        "demo-veiled-black-hole.md", "demo-veiled-black-hole.tex", "schwarzschild.md", "schwarzschild.tex"]
+        "demo-veiled-black-hole.md", "demo-veiled-black-hole.tex", "index.md", "index.tex",
+        "schwarzschild.md", "schwarzschild.tex"]
+    assert "schwarzschild" in (out / "index.md").read_text()
+    first = (out / "schwarzschild.md").read_bytes()
+    # A second build is served from the cache and writes the same bytes.
+    assert any((tmp_path / "cache").rglob("*"))
+    assert cli.main(["build", str(src), "-o", str(out), "-f", "md", "-f", "tex", "-q", "--no-figures"]) == 0
+    assert (out / "schwarzschild.md").read_bytes() == first
 
 
 def test_build_folder_reports_a_bad_entry_and_builds_the_others(tmp_path, capsys):
@@ -41,7 +50,7 @@ def test_build_folder_reports_a_bad_entry_and_builds_the_others(tmp_path, capsys
     (src / "a.yaml").write_text(SCHWARZSCHILD.read_text())
     (src / "broken.yaml").write_text("id: broken\ncoordinates: [t, r]\nmetric: {line_element: -dt^2 + dq^2}\n")
     out = tmp_path / "out"
-    assert cli.main(["build", str(src), "-o", str(out), "-q"]) == 2
+    assert cli.main(["build", str(src), "-o", str(out), "-q", "--no-cache", "--no-figures"]) == 2
     assert (out / "schwarzschild.tex").exists()
     err = capsys.readouterr().err
     assert "broken.yaml:3:" in err and "Unknown name 'dq'" in err

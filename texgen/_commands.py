@@ -55,6 +55,8 @@ def _report_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--no-figures", action="store_true", help="do not draw figures next to the report")
     p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
     p.add_argument("--strict", action="store_true", help="exit 1 (after writing) when a claim fails")
+    p.add_argument("--no-cache", action="store_true",
+                   help="for a folder: compute everything again instead of using cached results")
 
 
 _LEVELS = {"chapter": 0, "section": 1, "subsection": 2}
@@ -97,7 +99,9 @@ def cmd_build(args: argparse.Namespace) -> int:
     if not files:
         raise ConfigError("No spacetime files found in " + ", ".join(args.files))
     out = Path(args.output)
-    many = len(files) > 1 or any(Path(f).is_dir() for f in args.files) or (out.exists() and out.is_dir())
+    if any(Path(f).is_dir() for f in args.files):
+        return _build_folder(args, out)
+    many = len(files) > 1 or (out.exists() and out.is_dir())
     formats = args.format or ([None] if not many else ["tex"])
     failed = claims_failed = 0
     for path in files:
@@ -136,6 +140,29 @@ def cmd_build(args: argparse.Namespace) -> int:
             failed += 1
             print(f"error: {exc.format_message()}", file=sys.stderr)
     return 2 if failed else 1 if claims_failed and getattr(args, "strict", False) else 0
+
+
+def _build_folder(args: argparse.Namespace, out: Path) -> int:
+    """A library build: every entry in parallel workers, from the cache where possible, with index pages."""
+    from .cache import ResultCache
+    from .library import build_library
+
+    def progress(done, total, entry, stage):
+        if not args.quiet and stage in ("done", "failed"):
+            print(f"[{done}/{total}] {entry}: {stage}", file=sys.stderr)
+
+    opts = api.BuildOptions(standalone=not args.fragment, section_level=_LEVELS[args.section_level],
+                            template_dir=args.template, force=args.force, figures=not args.no_figures)
+    result = build_library(args.files, out, formats=tuple(args.format or ("tex",)), jobs=args.jobs,
+                           cache=None if args.no_cache else ResultCache.at(None), progress=progress,
+                           options=opts)
+    for entry in result.entries:
+        if entry.get("error"):
+            print(f"error: {entry['error']}", file=sys.stderr)
+    if not args.quiet:
+        print(f"built {len(result.entries) - result.failed} of {len(result.entries)} entries into {out} "
+              f"in {result.seconds:.1f} s; index: {', '.join(str(p) for p in result.index)}")
+    return 2 if result.failed else 0
 
 
 def _warn_failed_claims(path, model, cv) -> int:
