@@ -4,7 +4,7 @@ The physics hash covers what decides the geometry (metric with definitions
 expanded, coordinates with ranges and periods, parameters with assumptions and
 ranges, functions, cosmological constant, conventions) and nothing a reader
 edits freely (title, description, references, notes, changelog, version,
-comments, layout).  It is built from ``sympy.srepr`` of canonical forms inside
+comments, layout).  It is built from lex-ordered text of canonical forms inside
 JSON with sorted keys, so it is the same in every process and on every machine.
 """
 from __future__ import annotations
@@ -41,7 +41,13 @@ def _srepr(expr: Any) -> str:
 
 
 def _canon(expr: Any) -> str:
-    """srepr of a canonical form: ``cancel`` makes ``1 - 2M/r`` and ``(r - 2M)/r`` the same."""
+    """Text of a canonical form: expanded numerator over expanded denominator, printed in lex order.
+
+    ``cancel`` makes ``1 - 2M/r`` and ``(r - 2M)/r`` the same; printing the expanded
+    parts in lex order (rather than ``srepr`` of the tree) keeps the text independent of
+    how sympy happened to build the tree in this process (cached results, unevaluated
+    products), which differs between processes.
+    """
     if expr is None:
         return ""
     e = sp.sympify(expr)
@@ -49,7 +55,11 @@ def _canon(expr: Any) -> str:
         e = sp.cancel(e)
     except (sp.PolynomialError, TypeError, ValueError, NotImplementedError):
         pass  # the expression as built is canonical enough for non-rational input
-    return _srepr(e)
+    num, den = sp.fraction(e)
+    num, den = sp.expand(num), sp.expand(den)
+    if den.could_extract_minus_sign():
+        num, den = -num, -den
+    return sp.sstr(num, order="lex") + " / " + sp.sstr(den, order="lex")
 
 
 def _range(rng: Range | None) -> list | None:
