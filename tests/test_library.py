@@ -246,3 +246,25 @@ def test_round_trip_detects_a_wrong_metric():
     model = _load(LIBRARY / "kerr/kerr.yaml")
     want = _renamed(_kerr_newman(), list(model.coordinate_symbols + model.parameter_symbols))
     assert not _is_zero_matrix(sp.Matrix(model.metric) - want)
+
+
+DELIBERATE_MISTAKES = {"demo-veiled-black-hole": {"energy-density-notebook", "dominant"}}
+"""Claims that are wrong on purpose: the demo shows how texgen reports a failing claim."""
+
+
+@pytest.mark.parametrize("path", sorted(LIBRARY.rglob("*.yaml")), ids=lambda p: str(p.relative_to(LIBRARY)))
+def test_every_library_claim_and_source_check_holds(path):
+    """The library tests itself: each entry's claims come from its references (named in each claim)."""
+    from texgen import claims
+    from texgen.api import derive, load_spacetime
+
+    model = load_spacetime(path)
+    cv = derive(model)
+    results = claims.decide_claims(model, cv)
+    failing = {r.claim.label for r in results if not r.holds}
+    assert failing == DELIBERATE_MISTAKES.get(model.id, set()), [
+        (r.claim.label, r.status, r.message) for r in results if not r.holds]
+    assert all(r.status != "undecided" for r in results)
+    source = claims.check_source(model, cv)
+    if source is not None:
+        assert source.holds, (source.type, source.status)
