@@ -98,13 +98,8 @@ class BuildOptions:
     """Draw figures next to LaTeX and Markdown reports (needs matplotlib)."""
 
 
-SECTION_MODULES = ("texgen.claims",)
-"""Later stages that add a report section: each has ``report_section`` and ``results``.
-
-texgen.analysis provides both too, but stays out of the default reports until its
-section breaks long expressions over lines and its frame algebra is fast enough for
-Kerr–Newman (see DEVELOPERS.md); it is used through its API and by the claims.
-"""
+SECTION_MODULES = ("texgen.analysis", "texgen.claims")
+"""Later stages that add a report section: each has ``report_section`` and ``results``."""
 
 
 def _stage_modules() -> list:
