@@ -147,15 +147,22 @@ def _build_folder(args: argparse.Namespace, out: Path) -> int:
     from .cache import ResultCache
     from .library import build_library
 
+    from ._progress import ProgressBar
+
+    bar = ProgressBar(enabled=not args.quiet, label="entries")
+
     def progress(done, total, entry, stage):
-        if not args.quiet and stage in ("done", "failed"):
-            print(f"[{done}/{total}] {entry}: {stage}", file=sys.stderr)
+        # Entries done out of all, and the stage of the entry at work (in-process builds).
+        bar(f"{entry}: {stage}", done, total)
 
     opts = api.BuildOptions(standalone=not args.fragment, section_level=_LEVELS[args.section_level],
                             template_dir=args.template, force=args.force, figures=not args.no_figures)
-    result = build_library(args.files, out, formats=tuple(args.format or ("tex",)), jobs=args.jobs,
-                           cache=None if args.no_cache else ResultCache.at(None), progress=progress,
-                           options=opts)
+    try:
+        result = build_library(args.files, out, formats=tuple(args.format or ("tex",)), jobs=args.jobs,
+                               cache=None if args.no_cache else ResultCache.at(None), progress=progress,
+                               options=opts)
+    finally:
+        bar.close()
     for entry in result.entries:
         if entry.get("error"):
             print(f"error: {entry['error']}", file=sys.stderr)
