@@ -134,6 +134,8 @@ def cmd_build(args: argparse.Namespace) -> int:
                 print(f"warning: {path}: claims not decided: {exc.message}", file=sys.stderr)
             for exc in getattr(cv, "budget_failures", ()):
                 print(f"warning: {path}: not computed: {exc.message}", file=sys.stderr)
+            for lost in getattr(cv, "lost_workers", ()):
+                print(f"warning: {path}: {lost}", file=sys.stderr)
         except TexgenError as exc:
             if not many:
                 raise

@@ -10,6 +10,7 @@ are the ones a serial run gives (tests/test_heavy.py compares their ``srepr``).
 from __future__ import annotations
 
 import multiprocessing
+import signal
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from concurrent.futures.process import BrokenProcessPool
 from typing import Any
@@ -42,6 +43,8 @@ class HeavyCurvature(Curvature):
         self._over_budget: dict[str, BudgetExceeded] = {}
         self.worker_timings: dict[str, float] = {}
         """Wall seconds per stage spent in worker processes (not in :attr:`timings`)."""
+        self.lost_workers: list[str] = []
+        """What was left to this process because a worker died (killed, out of memory)."""
 
     @property
     def budget_failures(self) -> tuple[BudgetExceeded, ...]:
@@ -85,15 +88,20 @@ class HeavyCurvature(Curvature):
         _inherited = self if fork else None
         try:
             self._run_pool(jobs, groups, fork, failures)
-        except (BrokenProcessPool, OSError):
-            pass  # a worker died (memory?) or none could start: the serial path computes the rest
+        except (BrokenProcessPool, OSError) as exc:
+            # a worker died (killed, out of memory) or none could start: this process computes the rest
+            left = [q for grp in groups for q in grp if q not in self._cache]
+            why = "a worker process died" if isinstance(exc, BrokenProcessPool) else f"no worker could start ({exc})"
+            self.lost_workers.append(f"{why}; computed here instead: {', '.join(left) or 'nothing'}")
         finally:
             _inherited = None
         return failures
 
     def _run_pool(self, jobs: int, groups: list, fork: bool, failures: list) -> None:
         ctx = multiprocessing.get_context("fork" if fork else "spawn")
-        with ProcessPoolExecutor(max_workers=min(jobs, len(groups)), mp_context=ctx) as pool:
+        before = set(multiprocessing.active_children())
+        pool = ProcessPoolExecutor(max_workers=min(jobs, len(groups)), mp_context=ctx, initializer=_worker_init)
+        try:
             arg = None if fork else (self.spacetime, self.budget, self.backend)
             futures = {pool.submit(_work, grp, arg): grp for grp in groups}
             done = 0
@@ -110,6 +118,20 @@ class HeavyCurvature(Curvature):
                 done += 1
                 if self.progress is not None:
                     self.progress("parallel stages", done, len(groups))
+        except BaseException:
+            # Ctrl-C, SIGTERM or a dead worker: stop the other workers now rather than wait for them
+            for proc in set(multiprocessing.active_children()) - before:
+                proc.terminate()
+            raise
+        finally:
+            pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _worker_init() -> None:
+    """Workers leave interruptions to the parent: Ctrl-C (sent to the whole process group) is
+    ignored, SIGTERM (the parent's way of stopping them) ends them without a traceback."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
 
 
 def _work(names: tuple[str, ...], arg) -> tuple[dict, dict, tuple | None]:
