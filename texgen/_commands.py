@@ -53,6 +53,8 @@ def _report_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--template", metavar="DIR", help="folder with your own templates (run sandboxed)")
     p.add_argument("--force", action="store_true", help="overwrite files texgen did not write")
     p.add_argument("--no-figures", action="store_true", help="do not draw figures next to the report")
+    p.add_argument("--no-shorthands", action="store_true",
+                   help="print results in full, without short names for repeated sub-expressions")
     p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
     p.add_argument("--strict", action="store_true", help="exit 1 (after writing) when a claim fails")
     p.add_argument("--no-cache", action="store_true",
@@ -120,7 +122,7 @@ def cmd_build(args: argparse.Namespace) -> int:
                 opts = api.BuildOptions(fmt=fmt, standalone=not args.fragment,
                                         section_level=_LEVELS[args.section_level],
                                         template_dir=args.template, force=args.force,
-                                        figures=not args.no_figures)
+                                        figures=not args.no_figures, shorthands=not args.no_shorthands)
                 try:
                     written = api.build_report(model, target, opts, curvature=cv)
                 finally:
@@ -158,7 +160,8 @@ def _build_folder(args: argparse.Namespace, out: Path) -> int:
         bar(f"{entry}: {stage}", done, total)
 
     opts = api.BuildOptions(standalone=not args.fragment, section_level=_LEVELS[args.section_level],
-                            template_dir=args.template, force=args.force, figures=not args.no_figures)
+                            template_dir=args.template, force=args.force, figures=not args.no_figures,
+                            shorthands=not args.no_shorthands)
     try:
         result = build_library(args.files, out, formats=tuple(args.format or ("tex",)), jobs=args.jobs,
                                cache=None if args.no_cache else ResultCache.at(None), progress=progress,

@@ -96,6 +96,8 @@ class BuildOptions:
     force: bool = False
     figures: bool = True
     """Draw figures next to LaTeX and Markdown reports (needs matplotlib)."""
+    shorthands: bool = True
+    """Introduce short names for sub-expressions repeated across the results (display only)."""
 
 
 SECTION_MODULES = ("texgen.analysis", "texgen.claims")
@@ -166,7 +168,7 @@ def report_text(spacetime: Spacetime, curvature, fmt: str, options: BuildOptions
         data = build_results(spacetime, curvature, extra_results(spacetime, curvature, skipped))
         data["missing"].extend(skipped)
         return dump_json(data)
-    ropts = ReportOptions(section_level=options.section_level)
+    ropts = ReportOptions(section_level=options.section_level, shorthands=options.shorthands)
     skipped: list[dict] = []
     sections = extra_sections(spacetime, curvature, ExpressionPrinter(spacetime, ropts), skipped)
     if figures:

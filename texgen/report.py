@@ -30,6 +30,8 @@ class ReportOptions:
     max_width: float = MAX_WIDTH
     section_level: int = 1
     """1: \\section, 0: \\chapter, 2: \\subsection (fragments for an existing paper)."""
+    shorthands: bool = True
+    """Name repeated sub-expressions (``\\mathcal{A}_{1}``, ...) once and print the names in the results."""
 
 
 def _label(spacetime: Spacetime, name: str) -> str:
