@@ -6,14 +6,16 @@ Covers texgen/_parallel.py and texgen/_progress.py, and the --budget, --max-term
 from __future__ import annotations
 
 import io
+import os
 import pickle
+import signal
 import sys
 from pathlib import Path
 
 import pytest
 
 from texgen import api, claims, cli
-from texgen._parallel import HeavyCurvature
+from texgen._parallel import HeavyCurvature, map_in_workers
 from texgen._progress import ProgressBar
 from texgen.derive import Budget, Curvature
 from texgen.errors import BudgetExceeded, DerivationError
@@ -257,3 +259,32 @@ def test_build_with_jobs_writes_the_serial_report(tmp_path):
     assert cli.main(["build", str(src), "-o", str(tmp_path / "a.md"), "--no-figures", "-q"]) == 0
     assert cli.main(["build", str(src), "-o", str(tmp_path / "b.md"), "--no-figures", "-q", "--jobs", "2"]) == 0
     assert (tmp_path / "a.md").read_text() == (tmp_path / "b.md").read_text()
+
+
+# ---------------------------------------------------------------- many entries in workers
+
+def _square_but_three_kills_its_worker(x: int) -> int:
+    if x == 3:
+        os.kill(os.getpid(), signal.SIGKILL)
+    if x == 5:
+        raise ValueError("five is bad")
+    return x * x
+
+
+def test_map_in_workers_loses_only_the_item_that_kills_its_worker():
+    """A worker killed by SIGKILL breaks the pool and every unfinished item with it; the innocent
+    ones are run again, the guilty one is found by giving each its own process."""
+    seen, reruns = [], []
+    got = map_in_workers(_square_but_three_kills_its_worker, list(range(7)), 2,
+                         on_result=lambda item, value: seen.append(item),
+                         on_lost=lambda item, why: f"{item}: {why}", reruns=reruns)
+    assert got == [0, 1, 4, "3: its worker process died (killed, or out of memory?)", 16,
+                   "5: worker failed (ValueError: five is bad)", 36]
+    assert sorted(seen) == list(range(7))  # every item reported once
+    assert len(reruns) == 2 and reruns[0] >= 1  # a fresh pool, then one process per item
+
+
+def test_map_in_workers_without_deaths_runs_each_item_once():
+    reruns = []
+    assert map_in_workers(abs, [-2, -1, 0, 1], 2, reruns=reruns) == [2, 1, 0, 1]
+    assert reruns == []

@@ -157,3 +157,73 @@ def _work(names: tuple[str, ...], arg) -> tuple[dict, dict, tuple | None]:
             break  # the parent's serial path raises it where it is asked for
     timings = {k: v - before.get(k, 0.0) for k, v in cv.timings.items() if v - before.get(k, 0.0) > 0}
     return values, timings, failure
+
+
+# ------------------------------------------------------------------ many entries in worker processes
+
+def map_in_workers(fn, items: list, jobs: int, *, on_result=None, on_lost=None, reruns: list | None = None) -> list:
+    """``[fn(x) for x in items]`` in up to ``jobs`` worker processes, robust to workers that die.
+
+    A worker killed (by a signal, the out-of-memory killer) breaks the whole pool
+    and fails every unfinished item with it, guilty or not.  Those are run again
+    in a fresh pool; if that breaks as well, each remaining item gets a process
+    of its own, so the one that kills its worker is found and only it is lost:
+    its result is ``on_lost(item, reason)``, as for an item whose call raised
+    (the exception cannot come back through the pool as itself).
+    ``on_result(item, result)`` is called as results arrive; ``reruns`` (a list)
+    gets the number of items run again after each death.  Ctrl-C and SIGTERM stop
+    the workers at once (they leave both signals to this process, see
+    :func:`_worker_init`).
+    """
+    results: dict[int, Any] = {}
+    pending = list(range(len(items)))
+    for size in (jobs, jobs, 1):
+        if not pending:
+            break
+        if size != jobs or pending != list(range(len(items))):
+            if reruns is not None:
+                reruns.append(len(pending))
+        if size == 1 and len(pending) > 1:
+            for i in pending:  # one process per item: a death names its item
+                _pool_round(fn, items, [i], 1, results, on_result, on_lost)
+        else:
+            _pool_round(fn, items, pending, size, results, on_result, on_lost)
+        pending = [i for i in pending if i not in results]
+    for i in pending:
+        _settle(items, i, _lost(on_lost, items[i], "its worker process died (killed, or out of memory?)"),
+                results, on_result)
+    return [results[i] for i in range(len(items))]
+
+
+def _lost(on_lost, item, reason: str):
+    return on_lost(item, reason) if on_lost is not None else None
+
+
+def _settle(items: list, i: int, value, results: dict, on_result) -> None:
+    results[i] = value
+    if on_result is not None:
+        on_result(items[i], value)
+
+
+def _pool_round(fn, items: list, indices: list[int], jobs: int, results: dict, on_result, on_lost) -> None:
+    """Run ``fn`` on ``items[i]`` for ``i`` in ``indices`` in one pool; the items a broken pool
+    took down are left out of ``results`` for the next round."""
+    before = set(multiprocessing.active_children())
+    pool = ProcessPoolExecutor(max_workers=max(1, min(jobs, len(indices))), initializer=_worker_init)
+    try:
+        futures = {pool.submit(fn, items[i]): i for i in indices}
+        for fut in as_completed(futures):
+            i = futures[fut]
+            try:
+                value = fut.result()
+            except BrokenProcessPool:
+                continue  # unfinished when a worker died: the next round runs it again
+            except Exception as exc:  # noqa: BLE001 - one item's failure must not stop the others
+                value = _lost(on_lost, items[i], f"worker failed ({type(exc).__name__}: {exc})")
+            _settle(items, i, value, results, on_result)
+    except BaseException:
+        for proc in set(multiprocessing.active_children()) - before:
+            proc.terminate()
+        raise
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
