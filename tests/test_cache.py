@@ -132,3 +132,55 @@ def test_info_and_clear(tmp_path, model):
     assert cache.clear() == 2
     assert cache.info().entries == 0
     assert (tmp_path / "c" / "keep.txt").is_file()
+
+
+def test_figure_files_are_kept_by_content(tmp_path, caplog):
+    import hashlib
+
+    cache = ResultCache(tmp_path)
+    data = b"\x89PNG\r\n\x1a\n not really a picture"
+    sha = cache.put_figure(data, "png")
+    assert sha == hashlib.sha256(data).hexdigest()
+    assert (tmp_path / "figures" / f"{sha}.png").read_bytes() == data
+    assert cache.put_figure(data, "png") == sha  # the same content is one file
+    assert cache.get_figure(sha, "png") == data
+    assert cache.get_figure(sha, "pdf") is None
+    (tmp_path / "figures" / f"{sha}.png").write_bytes(data + b"!")
+    with caplog.at_level(logging.DEBUG, logger="texgen.cache"):
+        assert cache.get_figure(sha, "png") is None
+    assert any("failed its integrity check" in rec.getMessage() for rec in caplog.records)
+    assert cache.get_figure("../../etc/passwd", "png") is None  # names are checked, never followed
+
+
+def test_info_and_clear_count_figure_files(tmp_path, model, capsys):
+    from texgen import cli
+
+    cache = ResultCache(tmp_path / "c")
+    entry_payload(model, cache=cache)
+    cache.put_figure(b"one", "png")
+    cache.put_figure(b"two", "pdf")
+    info = cache.info()
+    assert (info.entries, info.figures) == (1, 2)
+    assert cli.main(["cache", "info", "--cache-dir", str(tmp_path / "c")]) == 0
+    assert capsys.readouterr().out.startswith(f"{tmp_path / 'c'}: 1 entries, 2 figure files, ")
+    assert cli.main(["cache", "clear", "--cache-dir", str(tmp_path / "c")]) == 0
+    assert capsys.readouterr().out == f"removed 1 entries and 2 figure files from {tmp_path / 'c'}\n"
+    assert cache.info() == type(info)(str(tmp_path / "c"), 0, 0, 0)
+    assert not (tmp_path / "c" / "figures").exists()
+
+
+def test_figures_have_their_own_entry(tmp_path, model):
+    """A build with figures and one without (--no-figures) never take each other's entry."""
+    from texgen.library import _options_key
+
+    assert entry_key(model, _options_key(None, figures=True)) != entry_key(model, _options_key(None))
+    cache = ResultCache(tmp_path)
+    entry_payload(model, cache=cache)
+    drawn = entry_payload(model, cache=cache, figures_dir=tmp_path / "out")
+    assert drawn["cached"] is False
+    assert [f["file"] for f in drawn["figures"]] == [
+        f"schwarzschild-{n}.{e}" for n in ("profiles", "invariants", "light_cones") for e in ("pdf", "png")]
+    assert entry_payload(model, cache=cache)["cached"] is True
+    assert "figures" not in entry_payload(model, cache=cache)
+    assert entry_payload(model, cache=cache, figures_dir=tmp_path / "out")["cached"] is True
+    assert cache.info().entries == 2

@@ -268,3 +268,148 @@ def test_every_library_claim_and_source_check_holds(path):
     source = claims.check_source(model, cv)
     if source is not None:
         assert source.holds, (source.type, source.status)
+
+
+# ------------------------------------------------------------------ folder builds with figures
+
+FIGURED = ("wormholes/morris_thorne.yaml", "lower_dimensions/two_sphere.yaml")
+MT_FIGURES = [f"morris-thorne-{name}.{ext}" for name in ("profiles", "invariants", "energy_conditions", "light_cones")
+              for ext in ("pdf", "png")]
+
+
+def _snapshot(folder: Path) -> dict[str, bytes]:
+    return {p.name: p.read_bytes() for p in sorted(folder.iterdir()) if p.is_file()}
+
+
+def _copy_entries(tmp: Path, *rels: str) -> Path:
+    import shutil
+
+    folder = tmp / "src"
+    for rel in rels:
+        (folder / rel).parent.mkdir(parents=True, exist_ok=True)
+        shutil.copy(LIBRARY / rel, folder / rel)
+    return folder
+
+
+@pytest.fixture(scope="module")
+def figured(tmp_path_factory):
+    """Two entries built cold into out/ with figures and a cache, then warm into warm/ with derive disabled."""
+    from texgen import api
+    from texgen.cache import ResultCache
+    from texgen.library import build_library
+
+    tmp = tmp_path_factory.mktemp("figured")
+    folder = _copy_entries(tmp, *FIGURED)
+    cold = build_library([folder], tmp / "out", formats=("tex", "md"), cache=ResultCache(tmp / "cache"),
+                         options=api.BuildOptions())
+    mp = pytest.MonkeyPatch()
+
+    def no_derive(*a, **k):
+        raise AssertionError("a warm build derived")
+
+    mp.setattr(api, "derive", no_derive)
+    try:
+        warm = build_library([folder], tmp / "warm", formats=("tex", "md"), cache=ResultCache(tmp / "cache"),
+                             options=api.BuildOptions())
+    finally:
+        mp.undo()
+    return tmp, folder, cold, warm
+
+
+def test_folder_build_draws_figures_that_the_reports_reference(figured):
+    tmp, _, cold, _ = figured
+    entries = {e["id"]: e for e in cold.entries}
+    assert [e["error"] for e in cold.entries] == [None, None]
+    assert entries["morris-thorne"]["figures"] == MT_FIGURES
+    assert entries["two-sphere"]["figures"] == []  # no time, no radial coordinate: nothing to draw
+    md = (tmp / "out" / "morris-thorne.md").read_text(encoding="utf-8")
+    tex = (tmp / "out" / "morris-thorne.tex").read_text(encoding="utf-8")
+    png_refs = re.findall(r"!\[[a-z_]+\]\(([^)]+)\)", md)
+    pdf_refs = re.findall(r"\\includegraphics\[[^]]*\]\{([^}]+)\}", tex)
+    assert png_refs == [f for f in MT_FIGURES if f.endswith(".png")]
+    assert pdf_refs == [f for f in MT_FIGURES if f.endswith(".pdf")]
+    for name in png_refs:
+        assert (tmp / "out" / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    for name in pdf_refs:
+        assert (tmp / "out" / name).read_bytes()[:5] == b"%PDF-"
+    # the issue's "done when": the wormhole report shows the null-energy-condition violation at the throat
+    assert "Hatched: the null energy condition is violated for $1 \\leq r \\leq" in md
+    assert "Figures" not in (tmp / "out" / "two-sphere.md").read_text(encoding="utf-8")
+
+
+def test_warm_folder_build_copies_identical_figures_without_deriving(figured):
+    tmp, _, cold, warm = figured
+    assert [e["cached"] for e in cold.entries] == [False, False]
+    assert [e["cached"] for e in warm.entries] == [True, True]
+    assert [e["figures"] for e in warm.entries] == [e["figures"] for e in cold.entries]
+    assert _snapshot(tmp / "warm") == _snapshot(tmp / "out")
+
+
+def test_folder_build_equals_a_single_file_build(figured, tmp_path):
+    """Same input, same figure files and the same report, whichever way it was built."""
+    from texgen import api
+
+    tmp, folder, _, _ = figured
+    report = api.build_report(folder / FIGURED[0], tmp_path / "morris-thorne.md")
+    single = _snapshot(tmp_path)
+    built = _snapshot(tmp / "out")
+    assert sorted(single) == sorted(MT_FIGURES + ["morris-thorne.md"])
+    assert single == {name: built[name] for name in single}
+    assert report.read_text(encoding="utf-8") == (tmp / "out" / "morris-thorne.md").read_text(encoding="utf-8")
+
+
+@pytest.mark.parametrize("damage", ["truncate", "delete"])
+def test_damaged_cached_figure_makes_the_entry_a_miss(figured, tmp_path, caplog, damage):
+    import logging
+    import shutil
+
+    from texgen import api
+    from texgen.cache import ResultCache
+    from texgen.library import build_library
+
+    tmp, folder, _, _ = figured
+    shutil.copytree(tmp / "cache", tmp_path / "cache")
+    cache = ResultCache(tmp_path / "cache")
+    want = _snapshot(tmp / "out")
+    png = want["morris-thorne-energy_conditions.png"]
+    import hashlib
+
+    victim = tmp_path / "cache" / "figures" / f"{hashlib.sha256(png).hexdigest()}.png"
+    if damage == "truncate":
+        victim.write_bytes(png[: len(png) // 2])
+    else:
+        victim.unlink()
+    with caplog.at_level(logging.DEBUG, logger="texgen"):
+        again = build_library([folder], tmp_path / "out", formats=("tex", "md"), cache=cache,
+                              options=api.BuildOptions())
+    assert [(e["id"], e["cached"]) for e in again.entries] == [("two-sphere", True), ("morris-thorne", False)]
+    assert any("morris-thorne-energy_conditions.png of morris-thorne missing or corrupt" in r.getMessage()
+               for r in caplog.records)
+    assert _snapshot(tmp_path / "out") == want
+    assert victim.read_bytes() == png  # the cache holds the figure again
+
+
+def test_no_figures_build_writes_no_figure_files_and_keeps_its_own_entry(figured, tmp_path):
+    import shutil
+
+    from texgen import api
+    from texgen.cache import ResultCache
+    from texgen.library import build_library
+
+    tmp, folder, _, _ = figured
+    shutil.copytree(tmp / "cache", tmp_path / "cache")
+    cache = ResultCache(tmp_path / "cache")
+    plain = build_library([folder], tmp_path / "plain", formats=("tex", "md"), cache=cache,
+                          options=api.BuildOptions(figures=False))
+    assert [(e["cached"], e["figures"]) for e in plain.entries] == [(False, []), (False, [])]
+    assert sorted(_snapshot(tmp_path / "plain")) == ["index.md", "index.tex", "morris-thorne.md", "morris-thorne.tex",
+                                                     "two-sphere.md", "two-sphere.tex"]
+    assert "Figures" not in (tmp_path / "plain" / "morris-thorne.md").read_text(encoding="utf-8")
+    assert "includegraphics" not in (tmp_path / "plain" / "morris-thorne.tex").read_text(encoding="utf-8")
+    # both kinds of entry now sit side by side: each build hits its own
+    again = build_library([folder], tmp_path / "plain2", formats=("md",), cache=cache,
+                          options=api.BuildOptions(figures=False))
+    figs = build_library([folder], tmp_path / "figs", formats=("md",), cache=cache, options=api.BuildOptions())
+    assert [e["cached"] for e in again.entries + figs.entries] == [True, True, True, True]
+    assert "morris-thorne-profiles.png" in _snapshot(tmp_path / "figs")
+    assert not any(name.endswith(".png") for name in _snapshot(tmp_path / "plain2"))

@@ -39,7 +39,7 @@ def register(sub) -> None:
 
     p = sub.add_parser("cache", help="show or clear the cache of derived results",
                        description="The cache of derived results: 'info' prints where it is and its size, "
-                                   "'clear' removes its entries.")
+                                   "'clear' removes its entries and the figure files kept for reports.")
     p.add_argument("action", choices=("info", "clear"))
     p.add_argument("--cache-dir", metavar="DIR", help="cache folder (default: $XDG_CACHE_HOME/texgen)")
     p.set_defaults(run=cmd_cache)
@@ -129,8 +129,12 @@ def cmd_diff(args: argparse.Namespace) -> int:
 def cmd_cache(args: argparse.Namespace) -> int:
     cache = _cache(args)
     if args.action == "clear":
-        print(f"removed {cache.clear()} entries from {cache.root}")
+        figures = cache.info().figures
+        entries = cache.clear()
+        also = f" and {figures} figure files" if figures else ""
+        print(f"removed {entries} entries{also} from {cache.root}")
         return 0
     info = cache.info()
-    print(f"{info.path}: {info.entries} entries, {info.bytes / 1024:.1f} KiB")
+    also = f", {info.figures} figure files" if info.figures else ""
+    print(f"{info.path}: {info.entries} entries{also}, {info.bytes / 1024:.1f} KiB")
     return 0

@@ -230,9 +230,11 @@ def draw_report_figures(spacetime: Spacetime, curvature, report: Path) -> tuple[
     memo = curvature.__dict__.setdefault("_report_figures", {})
     key = (str(report.parent.resolve()), report.stem)
     if key not in memo:
+        skipped: list[dict] = []  # one figure that cannot be computed does not cost the others
         try:
-            drawn = figures.draw_figures(spacetime, curvature, report.parent, report.stem, formats=("pdf", "png"))
-            memo[key] = (figures.report_section(spacetime, curvature, None, drawn), [])
+            drawn = figures.draw_figures(spacetime, curvature, report.parent, report.stem, formats=("pdf", "png"),
+                                         skipped=skipped)
+            memo[key] = (figures.report_section(spacetime, curvature, None, drawn), skipped)
         except (RenderError, DerivationError) as exc:
             memo[key] = (None, [{"stage": "figures", "reason": exc.message}])
     return memo[key]

@@ -8,7 +8,9 @@ conventions and the report options: a
 template-only change therefore recomputes nothing, and a comment or layout
 change in the YAML file does not either.  Every entry carries a SHA-256 of its
 payload; a corrupt, truncated or foreign entry is logged at debug level and
-recomputed, never trusted.
+recomputed, never trusted.  Figure files drawn for a report are kept by content
+(``figures/<sha256>.<ext>``); the entry names each file's SHA-256, and a figure
+file that is missing or does not match makes the entry a miss.
 """
 from __future__ import annotations
 
@@ -79,6 +81,14 @@ class CacheInfo:
     path: str
     entries: int
     bytes: int
+    """Entries and figure files together."""
+    figures: int = 0
+    """Figure files kept for the reports (``figures/<sha256>.<ext>``)."""
+
+
+FIGURE_DIR = "figures"
+"""Sub-folder of content-addressed figure files: one file per distinct content, shared by entries."""
+_EXTENSIONS = ("pdf", "png", "svg")
 
 
 @dataclass(frozen=True)
@@ -127,19 +137,59 @@ class ResultCache:
         text = json.dumps(data, ensure_ascii=False, separators=(",", ":"))
         return write_atomic(self._file(key), text, own_check=False)
 
+    def _figure_file(self, sha256: str, ext: str) -> Path:
+        if ext not in _EXTENSIONS or len(sha256) != 64 or not all(ch in "0123456789abcdef" for ch in sha256):
+            raise ValueError(f"not a figure file name: {sha256}.{ext}")
+        return self.root / FIGURE_DIR / f"{sha256}.{ext}"
+
+    def put_figure(self, data: bytes, ext: str) -> str:
+        """Keep the bytes of one figure file (atomically, once per content); returns their SHA-256."""
+        from .render import write_atomic
+
+        sha = hashlib.sha256(data).hexdigest()
+        path = self._figure_file(sha, ext)
+        try:
+            if path.stat().st_size == len(data) and hashlib.sha256(path.read_bytes()).hexdigest() == sha:
+                return sha
+        except OSError:
+            pass  # missing (or unreadable): write it
+        write_atomic(path, data, own_check=False)
+        return sha
+
+    def get_figure(self, sha256: str, ext: str) -> bytes | None:
+        """The figure file with this SHA-256, or ``None`` when it is missing or its bytes do not match."""
+        try:
+            path = self._figure_file(sha256, ext)
+            data = path.read_bytes()
+        except (OSError, ValueError) as exc:
+            log.debug("cached figure %s.%s unreadable: %s", sha256, ext, exc)
+            return None
+        if hashlib.sha256(data).hexdigest() != sha256:
+            log.debug("cached figure %s failed its integrity check; recomputing", path)
+            return None
+        return data
+
     def _files(self) -> list[Path]:
         if not self.root.is_dir():
             return []
         return sorted(p for p in self.root.glob("??/*.json") if p.is_file())
 
+    def _figure_files(self) -> list[Path]:
+        folder = self.root / FIGURE_DIR
+        if not folder.is_dir():
+            return []
+        return sorted(p for ext in _EXTENSIONS for p in folder.glob(f"*.{ext}")
+                      if p.is_file() and len(p.stem) == 64)
+
     def info(self) -> CacheInfo:
         files = self._files()
-        return CacheInfo(str(self.root), len(files), sum(p.stat().st_size for p in files))
+        figs = self._figure_files()
+        return CacheInfo(str(self.root), len(files), sum(p.stat().st_size for p in files + figs), len(figs))
 
     def clear(self) -> int:
-        """Remove every entry (and nothing else); returns how many were removed."""
+        """Remove every entry and figure file (and nothing else); returns how many entries were removed."""
         files = self._files()
-        for p in files:
+        for p in files + self._figure_files():
             p.unlink(missing_ok=True)
             try:
                 p.parent.rmdir()

@@ -1090,7 +1090,8 @@ def _render_bytes(mpl, MplFigure, Canvas, draw, fmt: str) -> bytes:
     return buf.getvalue()
 
 
-def draw_figures(spacetime, curvature, directory, stem, *, formats=("pdf", "png"), settings=None) -> tuple[Figure, ...]:
+def draw_figures(spacetime, curvature, directory, stem, *, formats=("pdf", "png"), settings=None,
+                 skipped: list | None = None) -> tuple[Figure, ...]:
     """Draw every figure that applies and write ``directory/{stem}-{name}.{ext}``.
 
     Parameters
@@ -1105,6 +1106,10 @@ def draw_figures(spacetime, curvature, directory, stem, *, formats=("pdf", "png"
         Any of ``pdf``, ``png``, ``svg``.
     settings:
         Keys of the ``figures`` section overriding the file's.
+    skipped:
+        If a list, a figure whose computation fails (a stage over its budget, a numerical
+        error) is noted there as ``{"stage": "figures", "reason": ...}`` and the others are
+        still drawn; otherwise the error is raised.
 
     Raises :class:`~texgen.errors.ConfigError` for a bad ``figures`` section and
     :class:`~texgen.errors.RenderError` when matplotlib is missing or a file cannot be written.
@@ -1123,12 +1128,21 @@ def draw_figures(spacetime, curvature, directory, stem, *, formats=("pdf", "png"
         return ()
     out = []
     for name in fs.draw:
-        d = _BUILDERS[name](c)
+        try:
+            d = _BUILDERS[name](c)
+            rendered = {} if d is None else {
+                fmt: _render_bytes(mpl, MplFigure, Canvas, lambda fig: _plot(c, name, d, fig), fmt) for fmt in formats}
+            captions = () if d is None else (_caption(c, name, d, True), _caption(c, name, d, False))
+        except (DerivationError, ValueError, TypeError, ArithmeticError, NotImplementedError, NoConvergence) as exc:
+            if skipped is None:
+                raise
+            why = exc.message if isinstance(exc, TexgenError) else f"{type(exc).__name__}: {exc}"
+            skipped.append({"stage": "figures", "reason": f"the {name.replace('_', ' ')} figure: {why}"})
+            continue
         if d is None:
             continue
         files: dict = {}
-        for fmt in formats:
-            data = _render_bytes(mpl, MplFigure, Canvas, lambda fig: _plot(c, name, d, fig), fmt)
+        for fmt, data in rendered.items():
             path = Path(directory) / f"{stem}-{name}.{fmt}"
             try:
                 write_atomic(path, data, own_check=False)
@@ -1137,8 +1151,8 @@ def draw_figures(spacetime, curvature, directory, stem, *, formats=("pdf", "png"
             files[fmt] = str(path)
         plain = {k: v for k, v in d.items() if not k.startswith("_")}
         plain["values"] = {s.name: v for s, v in (fs.values | fs.constants).items()}
-        plain["caption_tex"] = _caption(c, name, d, True)
-        out.append(Figure(name, files.get("pdf"), files.get("png"), _caption(c, name, d, False), plain))
+        plain["caption_tex"] = captions[0]
+        out.append(Figure(name, files.get("pdf"), files.get("png"), captions[1], plain))
     return tuple(out)
 
 

@@ -329,7 +329,8 @@ def list_entries(paths: Iterable[str | Path], *, cache=None) -> tuple[list[Libra
     for model in sorted(entries.values(), key=lambda m: m.id):
         status = ""
         if cache is not None:
-            hit = cache.get(entry_key(model, _options_key(None)))
+            hit = cache.get(entry_key(model, _options_key(None))) or cache.get(
+                entry_key(model, _options_key(None, figures=True)))
             status = claims_status(hit["results"]) if hit else ""
         if not status:
             section = model.section("claims")
@@ -373,8 +374,27 @@ def check_library(folder: str | Path, *, record_path: str | Path | None = None) 
 
 # ------------------------------------------------------------------ building with the cache
 
-def _options_key(options) -> dict:
-    return {"section_level": getattr(options, "section_level", 1)}
+def _options_key(options, figures: bool = False) -> dict:
+    key = {"section_level": getattr(options, "section_level", 1)}
+    if figures:
+        # the drawing library's version changes the bytes of the figure files
+        key["figures"] = _matplotlib_version()
+    return key
+
+
+def _matplotlib_version() -> str:
+    from importlib import metadata
+
+    try:
+        return metadata.version("matplotlib")
+    except metadata.PackageNotFoundError:
+        return "none"
+
+
+def wants_figures(formats: Iterable[str], options) -> bool:
+    """True when a build draws figures: a LaTeX or Markdown report and ``options.figures``
+    (no options: no figures, the reports alone)."""
+    return bool(getattr(options, "figures", False)) and any(f in ("tex", "md") for f in formats)
 
 
 def _refresh(payload: dict, model: Spacetime) -> dict:
@@ -383,11 +403,59 @@ def _refresh(payload: dict, model: Spacetime) -> dict:
     ctx = dict(payload["context"], sha256=model.sha256, source_name=name)
     results = dict(payload["results"])
     results["spacetime"] = dict(results["spacetime"], sha256=model.sha256, source=name)
-    return {"context": ctx, "results": results, "cached": payload.get("cached", False)}
+    out = {"context": ctx, "results": results, "cached": payload.get("cached", False)}
+    if "figures" in payload:
+        out["figures"] = payload["figures"]
+    return out
+
+
+def _restore_figures(model: Spacetime, payload: dict, cache, folder: Path) -> bool:
+    """Copy the cached figure files of ``payload`` into ``folder``; False if one is missing or corrupt."""
+    from .render import write_atomic
+
+    items = payload.get("figures")
+    if not isinstance(items, list):
+        log.debug("cache entry for %s has no figure list; recomputing", model.id)
+        return False
+    found = []
+    for item in items:
+        name, sha = (item.get("file"), item.get("sha256")) if isinstance(item, dict) else (None, None)
+        if not isinstance(name, str) or "/" in name or "\\" in name or not isinstance(sha, str):
+            log.debug("cache entry for %s names a bad figure file %r; recomputing", model.id, item)
+            return False
+        data = cache.get_figure(sha, name.rsplit(".", 1)[-1])
+        if data is None:
+            log.debug("cached figure %s of %s missing or corrupt; recomputing", name, model.id)
+            return False
+        found.append((folder / name, data))
+    for path, data in found:
+        try:
+            same = path.read_bytes() == data
+        except OSError:
+            same = False
+        if not same:  # identical files are left alone (their times too)
+            write_atomic(path, data, own_check=False)
+    return True
+
+
+def _keep_figures(section: dict | None, cache, folder: Path) -> list[dict]:
+    """The figure files of a drawn figures section with their SHA-256, kept in ``cache`` when given."""
+    import hashlib
+
+    out = []
+    for f in (section or {}).get("figures", []):
+        for name in (f.get("file_pdf"), f.get("file_png")):
+            if not name:
+                continue
+            data = (folder / name).read_bytes()
+            ext = name.rsplit(".", 1)[-1]
+            sha = cache.put_figure(data, ext) if cache is not None else hashlib.sha256(data).hexdigest()
+            out.append({"file": name, "sha256": sha})
+    return out
 
 
 def entry_payload(model: Spacetime, *, options=None, cache=None, progress: Callable | None = None,
-                  keep: list | None = None) -> dict:
+                  keep: list | None = None, figures_dir: str | Path | None = None) -> dict:
     """The report context and results of ``model`` as plain JSON data, from ``cache`` when it has them.
 
     Parameters
@@ -400,15 +468,20 @@ def entry_payload(model: Spacetime, *, options=None, cache=None, progress: Calla
         ``progress(stage, done, total)`` passed to the curvature engine.
     keep:
         If a list, the Curvature used is appended to it (nothing on a cache hit).
+    figures_dir:
+        Draw the figures into this folder (``ID-NAME.pdf/.png``, as next to ``ID.tex``) and put
+        their section into the context; the payload's ``figures`` lists each file with its
+        SHA-256.  On a cache hit the files are copied from the cache; a missing or corrupt one
+        makes the hit a miss.  ``None``: no figures (and a cache entry of its own).
     """
     from . import api
     from .cache import entry_key
     from .report import ExpressionPrinter, ReportOptions, build_context, build_results
 
-    key = entry_key(model, _options_key(options))
+    key = entry_key(model, _options_key(options, figures=figures_dir is not None))
     if cache is not None:
         hit = cache.get(key)
-        if hit is not None:
+        if hit is not None and (figures_dir is None or _restore_figures(model, hit, cache, Path(figures_dir))):
             return _refresh(dict(hit, cached=True), model)
     cv = api.derive(model, progress=progress)
     if keep is not None:
@@ -416,10 +489,19 @@ def entry_payload(model: Spacetime, *, options=None, cache=None, progress: Calla
     ropts = ReportOptions(section_level=getattr(options, "section_level", 1))
     results = build_results(model, cv, api.extra_results(model, cv))
     sections = api.extra_sections(model, cv, ExpressionPrinter(model, ropts))
+    drawn: dict = {}
+    if figures_dir is not None:
+        # the same drawing and section as a single-file build of ID.tex into figures_dir
+        section, missing = api.draw_report_figures(model, cv, Path(figures_dir) / f"{model.id}.tex")
+        if section:
+            sections.append(section)
+        drawn = {"figures": _keep_figures(section, cache, Path(figures_dir))}
     ctx = build_context(model, cv, ropts, extra_sections=sections)
+    if figures_dir is not None:
+        ctx["missing"].extend(missing)
     try:
         # the JSON round trip is what a cache hit returns: cold and warm builds render the same data
-        payload = json.loads(json.dumps({"context": ctx, "results": results}, ensure_ascii=False))
+        payload = json.loads(json.dumps({"context": ctx, "results": results, **drawn}, ensure_ascii=False))
     except (TypeError, ValueError) as exc:
         raise TexgenError(f"{model.source}: the report data is not plain data: {exc}") from None
     if cache is not None:
@@ -472,13 +554,15 @@ def build_entry(path: str, outdir: str, formats: tuple[str, ...], cache=None, op
     start = time.perf_counter()
     out: dict[str, Any] = {"file": str(path), "id": Path(path).stem, "title": "", "version": "", "dimension": 0,
                            "family": "", "reports": {}, "claims": "", "relations": [], "error": None,
-                           "cached": False}
+                           "cached": False, "figures": []}
     try:
         model = api.load_spacetime(path)
         out.update(id=model.id, title=model.title, version=model.version, dimension=model.dimension,
                    family=model.family, relations=_edges(model))
-        payload = entry_payload(model, options=options, cache=cache, progress=progress)
+        figures_dir = outdir if wants_figures(formats, options) else None
+        payload = entry_payload(model, options=options, cache=cache, progress=progress, figures_dir=figures_dir)
         out["cached"] = payload["cached"]
+        out["figures"] = [f["file"] for f in payload.get("figures", [])]
         out["claims"] = claims_status(payload["results"])
         for fmt in formats:
             target = Path(outdir) / f"{model.id}.{fmt}"
@@ -549,7 +633,9 @@ def build_library(paths, outdir, *, formats=("tex", "md"), jobs: int = 1, execut
         ``progress(done, total, entry, stage)``: in one process the stage is the engine's
         (``christoffel``, ``riemann``...); with workers it is ``done`` or ``failed`` per entry.
     options:
-        :class:`texgen.api.BuildOptions` (section level, fragment, templates, force).
+        :class:`texgen.api.BuildOptions` (section level, fragment, templates, force, figures);
+        ``None`` builds the reports without figures.  With ``figures``, LaTeX and Markdown
+        builds draw ``ID-NAME.pdf/.png`` next to ``ID.tex`` and keep them in the cache.
     """
     from . import api
     from .render import render, write_atomic
