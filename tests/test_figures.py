@@ -68,7 +68,7 @@ def test_kerr_newman_horizons_in_profiles(kerr_newman):
     assert _close(d["horizons"][1], 1 - root)
     assert d["throats"] == []
     assert d["values"] == {"M": 1.0, "a": 0.6, "Q": 0.3}
-    assert "$r = 1.742$, $r = 0.2584$" in d["caption_tex"]
+    assert "$r/M = 1.742$, $r/M = 0.2584$" in d["caption_tex"]
 
 
 def test_kerr_newman_ergosurface_on_the_equator(kerr_newman):
@@ -340,3 +340,45 @@ def test_hayward_kretschmann_finite_at_the_centre(tmp_path):
     assert d["diverges_at_inner_edge"] is False
     assert "finite limit as $r \\to 0$" in fig.caption
     assert abs(d["kretschmann_abs"][0] - 24 / d["values"]["l"] ** 4) < 1e-3 * 24 / d["values"]["l"] ** 4
+
+
+# ------------------------------------------------------------------ horizons where g^rr stays finite
+def test_isotropic_schwarzschild_horizon_marked(tmp_path):
+    # Isotropic coordinates: r = rho (1 + M/(2 rho))^2, -g_tt = ((1 - M/(2 rho))/(1 + M/(2 rho)))^2 (MTW 1973,
+    # Exercise 31.7 and eq. (31.22), recalled from memory): g^rho rho = psi^-4 vanishes nowhere, the horizon
+    # r = 2M (MTW eq. 31.1) sits at rho = M/2, where g_tt = 0.
+    st, cv = _library("schwarzschild/schwarzschild_isotropic.yaml")
+    figs = {f.name: f for f in draw_figures(st, cv, tmp_path, "iso", formats=("png",),
+                                            settings={"values": {"M": 2}, "draw": ["profiles", "light_cones"]})}
+    d = figs["profiles"].data
+    assert d["horizons"] == [1.0]
+    assert d["throats"] == []
+    rho = d["horizons"][0]
+    assert _close(rho * (1 + 2 / (2 * rho)) ** 2, 2 * 2)
+    i = d["r"].index(1.0)
+    assert abs(d["minus_g_tt"][i]) < 1e-12
+    assert "horizons at $\\rho/M = 0.5$" in d["caption_tex"]  # the axes and captions in units of M
+    # both sides of rho = M/2 are static exteriors in these coordinates: no cone tips over
+    assert not any(c["tipped"] for c in figs["light_cones"].data["cones"])
+
+
+def test_tangherlini_horizon_is_not_a_throat(tmp_path):
+    # Tangherlini, Nuovo Cimento 27, 636 (1963), five dimensions: f = 1 - mu/r^2, horizon at r = sqrt(mu).
+    # The extra polar angle chi is set to pi/2 like theta when the surfaces r = const are tested for being null.
+    st, cv = _library("higher_dimensions/schwarzschild_tangherlini_5d.yaml")
+    (fig,) = draw_figures(st, cv, tmp_path, "t5", formats=("png",), settings={"values": {"mu": 4},
+                                                                              "draw": ["profiles"]})
+    assert fig.data["horizons"] == [2.0]
+    assert fig.data["throats"] == []
+
+
+@pytest.mark.parametrize("rel, settings, label", [
+    # Schwarzschild depends on r only through r/M (common practice: radii in units of M), the horizon r = 2M
+    ("schwarzschild/schwarzschild.yaml", {"values": {"M": 2}}, "horizons at $r/M = 2$"),
+    # BTZ's M is dimensionless (Banados, Teitelboim, Zanelli, Phys. Rev. Lett. 69, 1849 (1992)): plain r
+    ("lower_dimensions/btz.yaml", {"values": {"M": 1, "l": 1, "J": 0}}, "horizons at $r = 1$"),
+])
+def test_radii_in_units_of_the_mass_only_when_it_sets_the_scale(rel, settings, label, tmp_path):
+    st, cv = _library(rel)
+    (fig,) = draw_figures(st, cv, tmp_path, "u", formats=("png",), settings=dict(settings, draw=["profiles"]))
+    assert label in fig.data["caption_tex"]

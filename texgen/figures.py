@@ -414,6 +414,20 @@ class _Ctx:
     values_text: str
     horizon: bool
     """True when :attr:`specials` are horizons, False when they are throats (or absent)."""
+    unit: float = 1.0
+    """The value of the mass used as the unit of the axes (radii shown as r/M), else 1."""
+    unit_tex: str = ""
+    """The mass's LaTeX name when the axes are in its units, else empty."""
+
+    @property
+    def rlabel(self) -> str:
+        """The radial axis: ``r/M`` in units of the mass, else ``r``."""
+        rn = self.st.coordinates[self.ri].latex
+        return f"{rn}/{self.unit_tex}" if self.unit_tex else rn
+
+    def u(self, x: float) -> float:
+        """A radius in the axes' units."""
+        return x / self.unit
 
     @property
     def horizons(self) -> list:
@@ -477,6 +491,8 @@ def _context(st, cv, fs) -> _Ctx | None:
     h = getattr(an, "horizon_function", None)
     if not specials and h is not None:
         specials = _roots_numeric(num, h, lower, 1e6)
+    if not specials and ti is not None:
+        specials = _null_radii(st, num, radial, theta, ri, lower)
     specials = sorted(set(specials), reverse=True)
     if fs.radial_range is not None:
         lo, hi = fs.radial_range
@@ -489,9 +505,69 @@ def _context(st, cv, fs) -> _Ctx | None:
             lo = min(specials)  # a throat: the manifold ends there in these coordinates
     grid = np.unique(np.concatenate([np.geomspace(lo, hi, _GRID) if lo > 0 else np.linspace(lo, hi, _GRID),
                                      [x for x in specials if lo <= x <= hi]]))
+    unit, unit_tex = _mass_unit(st, fs, num, radial, ti, ri, grid)
     return _Ctx(st, cv, an, fs, num, radial, theta, ti, ri, lower, list(map(float, grid)), specials,
                 _values_text(st, fs, True), _values_text(st, fs, False),
-                _has_horizon(num, h, st, ti, ri, specials))
+                _has_horizon(num, h, st, ti, ri, specials), unit, unit_tex)
+
+
+def _mass_unit(st, fs, num, radial, ti, ri, grid) -> tuple[float, str]:
+    """(value, LaTeX name) of a mass M that sets the length scale, else (1.0, "").
+
+    M is the unit when the metric functions depend on r only through r/M: g_tt and g_rr are
+    unchanged when r and every parameter are scaled together (all parameters lengths, G = c = 1),
+    as for Schwarzschild, Reissner-Nordstrom and Kerr-Newman (common practice: radii in units of M).
+    """
+    mass = next((p for p in st.parameters if p.name in ("M", "m") and (fs.values.get(p.symbol) or 0) > 0), None)
+    if mass is None or ti is None or fs.functions:
+        return 1.0, ""
+    lam = sp.Integer(2)
+    scaled = {p.symbol: lam * p.symbol for p in st.parameters} | {radial: lam * radial}
+    v = fs.values[mass.symbol]
+    pts = [x for x in (1.3 * v, 3.7 * v, 11.0 * v) if grid[0] <= x <= grid[-1]] or [float(grid[len(grid) // 2])]
+    for i in (ti, ri):
+        g = sp.sympify(st.metric[i, i])
+        f, f2 = num.function(g), num.function(g.xreplace(scaled))
+        if f is None or f2 is None:
+            return 1.0, ""
+        a, b = f(pts), f2(pts)
+        if not all(math.isfinite(x) and math.isfinite(y) and abs(x - y) <= 1e-9 * (1 + abs(x)) for x, y in zip(a, b)):
+            return 1.0, ""
+    return v, mass.latex
+
+
+def _null_radii(st, num, radial, theta, ri, lower) -> list[float]:
+    """Radii where the surfaces r = const are null (their induced metric is degenerate), outermost first.
+
+    A horizon where g^rr stays finite: in isotropic Schwarzschild coordinates g^rr = psi^-4 vanishes
+    nowhere, yet rho = M/2 (r = 2M) is the horizon, where g_tt and the induced metric degenerate
+    (MTW 1973, Exercise 31.7 and eq. (31.22), recalled from memory).  Repeated zeros are taken once.
+    """
+    det = _induced_det(st, ri, theta)
+    try:
+        numer = sp.together(det).as_numer_denom()[0]
+        factors = [f for f, _ in sp.factor_list(numer, radial)[1] if radial in f.free_symbols]
+    except (sp.PolynomialError, ValueError, TypeError, NotImplementedError):
+        return []
+    out: set = set()
+    for f in factors:
+        out |= set(_roots_numeric(num, f, lower, 1e6))
+    return sorted(out, reverse=True)
+
+
+def _induced_det(st, ri, theta):
+    """Determinant of the metric induced on r = const, on the equator: every other angle with a bounded
+    numeric range at its mid-point (the extra polar angles of higher-dimensional spheres too)."""
+    keep = [i for i in range(st.dimension) if i != ri]
+    det = st.metric.extract(keep, keep).det(method="berkowitz")
+    mid = {theta: sp.pi / 2} if theta is not None else {}
+    for i in keep:
+        c = st.coordinates[i]
+        lo, hi = (c.range.lower, c.range.upper) if c.range is not None else (None, None)
+        if c.symbol not in mid and lo is not None and hi is not None and sp.sympify(lo).is_number \
+                and sp.sympify(hi).is_number:
+            mid[c.symbol] = (sp.sympify(lo) + sp.sympify(hi)) / 2
+    return det.xreplace(mid)
 
 
 def _has_horizon(num, h, st, ti, ri, specials) -> bool:
@@ -502,8 +578,7 @@ def _has_horizon(num, h, st, ti, ri, specials) -> bool:
     """
     if ti is None or not specials:
         return False
-    keep = [i for i in range(st.dimension) if i != ri]
-    f = num.function(st.metric.extract(keep, keep).det(method="berkowitz"))
+    f = num.function(_induced_det(st, ri, num.theta))
     if f is None:
         return False
     for x in specials:
@@ -833,17 +908,18 @@ def _matplotlib():
 
 
 def _marks(ax, c: _Ctx, d: dict):
-    for k, x in enumerate(d.get("horizons") or []):
+    u = c.u
+    for k, x in enumerate(u(x) for x in d.get("horizons") or []):
         ax.axvline(x, color=PALETTE[0], linestyle=":", linewidth=1,
                    label=f"horizon ${'r_+' if k == 0 else 'r_-' if k == 1 else 'r_%d' % k} = {x:.4g}$")
-    for x in d.get("throats") or []:
+    for x in map(u, d.get("throats") or []):
         ax.axvline(x, color=PALETTE[3], linestyle="-.", linewidth=1, label=f"throat ${x:.4g}$")
-    for x in d.get("ergosurfaces") or []:
+    for x in map(u, d.get("ergosurfaces") or []):
         ax.axvline(x, color=PALETTE[6], linestyle=(0, (3, 1, 1, 1)), linewidth=1,
                    label=f"ergosurface (equator) ${x:.4g}$")
     if d.get("photon_sphere") is not None:
-        ax.axvline(d["photon_sphere"], color=PALETTE[2], linestyle="--", linewidth=1,
-                   label=f"photon sphere ${d['photon_sphere']:.4g}$")
+        ax.axvline(u(d["photon_sphere"]), color=PALETTE[2], linestyle="--", linewidth=1,
+                   label=f"photon sphere ${u(d['photon_sphere']):.4g}$")
 
 
 def _nan(values):
@@ -853,10 +929,11 @@ def _nan(values):
 def _plot(c: _Ctx, name: str, d: dict, fig):
     np = _np()
     ax = fig.add_subplot(1, 1, 1)
-    rtex = f"${c.st.coordinates[c.ri].latex}$"
+    rtex = f"${c.rlabel}$"
+    rs_axis = [c.u(x) for x in d["r"]] if "r" in d and name != "ctc" else None
     if name == "profiles":
         for k, key in enumerate(("minus_g_tt", "g_rr", "one_over_g_inv_rr")):
-            ax.plot(d["r"], _nan(d[key]), color=PALETTE[(4, 5, 3)[k]], linestyle=STYLES[k], label=d["labels"][key])
+            ax.plot(rs_axis, _nan(d[key]), color=PALETTE[(4, 5, 3)[k]], linestyle=STYLES[k], label=d["labels"][key])
         vals = [abs(v) for key in ("minus_g_tt", "one_over_g_inv_rr") for v in d[key] if v is not None]
         lim = max(2.0, float(np.percentile(vals, 90)) if vals else 2.0)
         ax.set_ylim(-lim, lim)
@@ -865,13 +942,13 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
         ax.set_xlabel(rtex)
         ax.set_ylabel("metric functions")
     elif name == "invariants":
-        ax.semilogy(d["r"], _nan(d["kretschmann_abs"]), color=PALETTE[5], linestyle=STYLES[0],
+        ax.semilogy(rs_axis, _nan(d["kretschmann_abs"]), color=PALETTE[5], linestyle=STYLES[0],
                     label=r"$|R_{abcd}R^{abcd}|$")
         _marks(ax, c, {"horizons": d["horizons"], "throats": d["throats"]})
         ax.set_xlabel(rtex)
         ax.set_ylabel(r"$|K|$")
     elif name == "energy_conditions":
-        r = d["r"]
+        r = rs_axis
         ax.plot(r, _nan(d["rho"]), color=PALETTE[0], linestyle=STYLES[0], label=r"$\rho$")
         k = 1
         for pn, ys in zip(d["pressure_tex"], d["rho_plus_p"]):
@@ -885,7 +962,7 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
                     label=rf"$\rho - |p_{{{pn}}}|$")
             k += 1
         for a, b in d["null_violated"]:
-            ax.axvspan(a, b, facecolor="none", edgecolor="0.4", hatch="///", linewidth=0,
+            ax.axvspan(c.u(a), c.u(b), facecolor="none", edgecolor="0.4", hatch="///", linewidth=0,
                        label="null condition violated" if (a, b) == tuple(d["null_violated"][0]) else None)
         ax.axhline(0, color="0.6", linewidth=0.6)
         ax.set_xlabel(rtex)
@@ -932,13 +1009,13 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
         rs, ths = np.asarray(d["r"]), np.asarray(d["theta"])
         R, T = np.meshgrid(rs, ths)
         Z = np.asarray(d["timelike"], dtype=float)
-        X, Y = R * np.sin(T), R * np.cos(T)
+        X, Y = R * np.sin(T) / c.unit, R * np.cos(T) / c.unit
         ax.contourf(X, Y, Z, levels=[0.5, 1.5], colors=[PALETTE[6]], hatches=["//"], alpha=0.6)
         if Z.min() < 0.5 < Z.max():
             ax.contour(X, Y, Z, levels=[0.5], colors=[PALETTE[0]], linewidths=1)
         for k, rh in enumerate(d["horizons"]):
-            ax.plot(rh * np.sin(ths), rh * np.cos(ths), color=PALETTE[0], linestyle=":", linewidth=1,
-                    label=f"horizon ${rh:.4g}$")
+            ax.plot(c.u(rh) * np.sin(ths), c.u(rh) * np.cos(ths), color=PALETTE[0], linestyle=":", linewidth=1,
+                    label=f"horizon ${c.u(rh):.4g}$")
         from matplotlib.patches import Patch
 
         handles = ax.get_legend_handles_labels()[0]
@@ -946,16 +1023,17 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
         ax.legend(handles=handles, fontsize="small", loc="upper right")
         ax.set_aspect("equal")
         if c.theta is not None:
-            ax.set_xlabel(rf"${c.st.coordinates[c.ri].latex}\,\sin\theta$")
-            ax.set_ylabel(rf"${c.st.coordinates[c.ri].latex}\,\cos\theta$")
+            unit = f"/{c.unit_tex}" if c.unit_tex else ""
+            ax.set_xlabel(rf"${c.st.coordinates[c.ri].latex}\,\sin\theta{unit}$")
+            ax.set_ylabel(rf"${c.st.coordinates[c.ri].latex}\,\cos\theta{unit}$")
         else:
             ax.set_xlabel(rtex)
         return
     elif name == "light_cones":
-        span = d["cones"][-1]["r"] - d["cones"][0]["r"]
+        span = c.u(d["cones"][-1]["r"] - d["cones"][0]["r"])
         size = span / (len(d["cones"]) * 1.3) if span > 0 else 0.3
         for k, cone in enumerate(d["cones"]):
-            r0 = cone["r"]
+            r0 = c.u(cone["r"])
             (a0, b0), (a1, b1) = cone["directions"]
             col = PALETTE[5] if cone["tipped"] else PALETTE[4]
             ax.fill([r0, r0 + size * a0, r0 + size * a1], [0, size * b0, size * b1], color=col, alpha=0.35,
@@ -964,7 +1042,7 @@ def _plot(c: _Ctx, name: str, d: dict, fig):
                 ax.plot([r0, r0 + size * a], [0, size * b], color=col, linestyle="-", linewidth=1)
         _marks(ax, c, {"horizons": d["horizons"], "throats": d["throats"]})
         ax.set_xlabel(rtex)
-        ax.set_ylabel(f"${d['t_tex']}$")
+        ax.set_ylabel(f"${d['t_tex']}/{c.unit_tex}$" if c.unit_tex else f"${d['t_tex']}$")
         ax.set_aspect("equal", adjustable="datalim")
     handles, labels = ax.get_legend_handles_labels()
     if handles:
@@ -990,18 +1068,18 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
     def m(text):
         return f"${text}$"
 
-    rn = c.st.coordinates[c.ri].latex
+    rn = c.rlabel
     where = f" at {vals}" if vals else ""
     if name == "profiles":
         marks = []
         if d["horizons"]:
-            marks.append("horizons at " + ", ".join(m(f"{rn} = {x:.4g}") for x in d["horizons"]))
+            marks.append("horizons at " + ", ".join(m(f"{rn} = {c.u(x):.4g}") for x in d["horizons"]))
         if d["ergosurfaces"]:
-            marks.append("the ergosurface on the equator at " + ", ".join(m(f"{rn} = {x:.4g}") for x in d["ergosurfaces"]))
+            marks.append("the ergosurface on the equator at " + ", ".join(m(f"{rn} = {c.u(x):.4g}") for x in d["ergosurfaces"]))
         if d["throats"]:
-            marks.append("the throat at " + ", ".join(m(f"{rn} = {x:.4g}") for x in d["throats"]))
+            marks.append("the throat at " + ", ".join(m(f"{rn} = {c.u(x):.4g}") for x in d["throats"]))
         if d["photon_sphere"] is not None:
-            marks.append("the photon sphere at " + m(f"{rn} = {d['photon_sphere']:.4g}"))
+            marks.append("the photon sphere at " + m(f"{rn} = {c.u(d['photon_sphere']):.4g}"))
         text = f"Metric functions {m(d['labels']['minus_g_tt'].strip('$'))}, {m(d['labels']['g_rr'].strip('$'))} " \
                f"and {m(d['labels']['one_over_g_inv_rr'].strip('$'))} against {m(rn)}{where}"
         text += ("; marked: " + "; ".join(marks) + "." if marks else ".")
@@ -1009,7 +1087,8 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
             text += f" Angular dependence evaluated on the equator {m(_EQUATOR)}."
         return text
     if name == "invariants":
-        edge = m(rn + r" \to " + f"{c.lower:g}") if c.lower is not None else ""
+        near = c.st.coordinates[c.ri].latex if c.lower == 0 else rn  # r -> 0 reads the same in any unit
+        edge = m(near + r" \to " + f"{c.u(c.lower):g}") if c.lower is not None else ""
         text = f"The Kretschmann scalar {m('|R_{abcd}R^{abcd}|')} on a logarithmic scale against {m(rn)}{where}"
         if c.theta is not None:
             text += f", on the equator {m(_EQUATOR)}"
@@ -1030,7 +1109,7 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
                 f"{m(_NEC)}, the weak one also {m(_WEC)}, the strong one also "
                 f"{m(_SEC)}, the dominant one {m(_DEC)}.")
         if d["null_violated"]:
-            spans = ", ".join(m(f"{a:.4g} " + r"\leq " + f"{rn} " + r"\leq " + f"{b:.4g}") for a, b in d["null_violated"])
+            spans = ", ".join(m(f"{c.u(a):.4g} " + r"\leq " + f"{rn} " + r"\leq " + f"{c.u(b):.4g}") for a, b in d["null_violated"])
             text += f" Hatched: the null energy condition is violated for {spans}."
         else:
             text += " The null energy condition holds on the plotted range."
@@ -1049,7 +1128,7 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
     if name == "ctc":
         a, b = d["r_extent"]
         killing = m(r"\partial_{" + d["coordinate_tex"] + "}")
-        extent = m(f"{a:.3g} " + r"\lesssim " + f"{rn} " + r"\lesssim " + f"{b:.3g}")
+        extent = m(f"{c.u(a):.3g} " + r"\lesssim " + f"{rn} " + r"\lesssim " + f"{c.u(b):.3g}")
         return (f"Hatched: where the Killing vector {killing} of the periodic "
                 f"coordinate {m(d['coordinate_tex'])} is timelike, so that its orbits are closed timelike curves "
                 f"({extent} on the grid){where}.")
@@ -1063,11 +1142,12 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
             if not x["tipped"] and runs:
                 runs[-1][3] = False
         dash = "--" if tex else "–"
-        text = (f"Radial light cones (future null directions) in the {m(d['t_tex'])}{dash}{m(rn)} plane{where}.")
+        plane = m(c.st.coordinates[c.ri].latex)
+        text = (f"Radial light cones (future null directions) in the {m(d['t_tex'])}{dash}{plane} plane{where}.")
         if runs:
             parts = []
             for a, b, towards, _ in runs:
-                span = m(f"{a:.3g} " + r"\leq " + f"{rn} " + r"\leq " + f"{b:.3g}") if a != b else m(f"{rn} = {a:.3g}")
+                span = m(f"{c.u(a):.3g} " + r"\leq " + f"{rn} " + r"\leq " + f"{c.u(b):.3g}") if a != b else m(f"{rn} = {c.u(a):.3g}")
                 parts.append(f"at {span} both future null directions point to {towards} {m(rn)}")
             text += " Hatched cones have tipped over: " + "; ".join(parts) + "."
         else:
