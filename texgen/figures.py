@@ -909,9 +909,10 @@ def _matplotlib():
 
 def _marks(ax, c: _Ctx, d: dict):
     u = c.u
+    per = f"/{c.unit_tex}" if c.unit_tex else ""
     for k, x in enumerate(u(x) for x in d.get("horizons") or []):
         ax.axvline(x, color=PALETTE[0], linestyle=":", linewidth=1,
-                   label=f"horizon ${'r_+' if k == 0 else 'r_-' if k == 1 else 'r_%d' % k} = {x:.4g}$")
+                   label=f"horizon ${'r_+' if k == 0 else 'r_-' if k == 1 else 'r_%d' % k}{per} = {x:.4g}$")
     for x in map(u, d.get("throats") or []):
         ax.axvline(x, color=PALETTE[3], linestyle="-.", linewidth=1, label=f"throat ${x:.4g}$")
     for x in map(u, d.get("ergosurfaces") or []):
