@@ -501,6 +501,56 @@ def test_build_stopped_while_workers_run_stops_them_and_keeps_the_previous_repor
     assert sorted(p.name for p in tmp_path.iterdir()) == ["s.md", "worker.pid"]
 
 
+SLOW_SCHWARZSCHILD_ENTRY_THEN_MAIN = """\
+import os, sys, time
+from pathlib import Path
+from texgen import cli, library
+build_entry = library.build_entry
+def slow(path, *args, **kw):  # the first worker to build Schwarzschild says who it is, then dawdles
+    if Path(path).stem == "schwarzschild" and not os.path.exists("worker.pid"):
+        with open("worker.pid.tmp", "w") as f:
+            f.write(str(os.getpid()))
+        os.replace("worker.pid.tmp", "worker.pid")
+        time.sleep(120)
+    return build_entry(path, *args, **kw)
+library.build_entry = slow  # forked workers inherit it
+sys.exit(cli.main(sys.argv[1:]))
+"""
+
+
+def test_folder_build_with_a_killed_worker_builds_every_entry(tmp_path):
+    """A worker of ``build FOLDER --jobs 2`` killed by SIGKILL mid-entry takes down the pool and every
+    unfinished entry with it: the build runs them again in fresh workers, says so, and finishes
+    with all reports and index pages, nothing partial."""
+    src = tmp_path / "src"
+    src.mkdir()
+    for f in (SCHWARZSCHILD, SPHERE, LIBRARY / "lower_dimensions" / "btz.yaml"):
+        shutil.copy(f, src / f.name)
+    out = tmp_path / "out"
+    proc = subprocess.Popen([sys.executable, "-c", SLOW_SCHWARZSCHILD_ENTRY_THEN_MAIN, "build", str(src),
+                             "-o", str(out), "-f", "md", "--jobs", "2", "--no-cache", "--no-figures", "-q"],
+                            cwd=tmp_path, text=True, env=dict(os.environ, PYTHONPATH=str(ROOT)),
+                            stdin=subprocess.DEVNULL, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            start_new_session=True)
+    try:
+        deadline = time.monotonic() + 120
+        while not (tmp_path / "worker.pid").exists():
+            assert proc.poll() is None and time.monotonic() < deadline, "the worker never started"
+            time.sleep(0.05)
+        os.kill(int((tmp_path / "worker.pid").read_text()), signal.SIGKILL)
+        out_text, err = proc.communicate(timeout=120)
+    finally:
+        if proc.poll() is None:
+            os.killpg(proc.pid, signal.SIGKILL)
+    assert (proc.returncode, out_text) == (0, ""), err
+    reruns = err.splitlines()
+    assert len(reruns) == 1 and reruns[0].startswith("warning: a worker process died; "), err
+    assert reruns[0].endswith(" unfinished entries built again")
+    assert sorted(p.name for p in out.iterdir()) == ["btz.md", "index.md", "index.tex", "schwarzschild.md",
+                                                     "two-sphere.md"]
+    assert written_by_texgen(out / "schwarzschild.md")
+
+
 def test_internal_error_deep_in_build_goes_to_the_log(monkeypatch, tmp_path, capsys):
     """A bug deep in report building: exit 3, a short message with the log's path, the traceback in the log."""
     import texgen.report

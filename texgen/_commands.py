@@ -168,6 +168,8 @@ def _build_folder(args: argparse.Namespace, out: Path) -> int:
                                options=opts)
     finally:
         bar.close()
+    for n in result.reruns:
+        print(f"warning: a worker process died; {n} unfinished entries built again", file=sys.stderr)
     for entry in result.entries:
         if entry.get("error"):
             print(f"error: {entry['error']}", file=sys.stderr)

@@ -177,12 +177,11 @@ def map_in_workers(fn, items: list, jobs: int, *, on_result=None, on_lost=None, 
     """
     results: dict[int, Any] = {}
     pending = list(range(len(items)))
-    for size in (jobs, jobs, 1):
+    for again, size in enumerate((jobs, jobs, 1)):
         if not pending:
             break
-        if size != jobs or pending != list(range(len(items))):
-            if reruns is not None:
-                reruns.append(len(pending))
+        if again and reruns is not None:
+            reruns.append(len(pending))
         if size == 1 and len(pending) > 1:
             for i in pending:  # one process per item: a death names its item
                 _pool_round(fn, items, [i], 1, results, on_result, on_lost)

@@ -12,8 +12,9 @@ import difflib
 import json
 import logging
 import time
-from concurrent.futures import Executor, ProcessPoolExecutor, as_completed
+from concurrent.futures import Executor, as_completed
 from dataclasses import dataclass, field
+from functools import partial
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
@@ -545,6 +546,13 @@ def _edges(model: Spacetime) -> list[dict]:
     return out
 
 
+def _failed_entry(path: str, reason: str) -> dict:
+    """The summary of an entry whose worker could not return one."""
+    return {"file": path, "id": Path(path).stem, "title": "", "version": "", "dimension": 0, "family": "",
+            "reports": {}, "claims": "", "relations": [], "error": f"{path}: {reason}", "cached": False,
+            "seconds": 0.0}
+
+
 def build_entry(path: str, outdir: str, formats: tuple[str, ...], cache=None, options=None,
                 progress: Callable | None = None) -> dict:
     """Build the reports of one file into ``outdir``; returns a plain summary (never raises TexgenError)."""
@@ -586,6 +594,8 @@ class LibraryBuild:
     failed: int = 0
     seconds: float = 0.0
     edges: tuple[dict, ...] = field(default_factory=tuple)
+    reruns: tuple[int, ...] = ()
+    """Entries built again after a worker process died, per death (see :func:`texgen._parallel.map_in_workers`)."""
 
 
 def index_context(entries: list[dict], edges: list[dict]) -> dict:
@@ -638,6 +648,7 @@ def build_library(paths, outdir, *, formats=("tex", "md"), jobs: int = 1, execut
         builds draw ``ID-NAME.pdf/.png`` next to ``ID.tex`` and keep them in the cache.
     """
     from . import api
+    from ._parallel import map_in_workers
     from .render import render, write_atomic
 
     start = time.perf_counter()
@@ -652,6 +663,15 @@ def build_library(paths, outdir, *, formats=("tex", "md"), jobs: int = 1, execut
     formats = tuple(formats)
     total = len(files)
     results: list[dict] = []
+    reruns: list[int] = []
+    arrived = [0]
+
+    def _arrived(res: dict) -> dict:
+        arrived[0] += 1
+        if progress is not None:
+            progress(arrived[0], total, res["id"], "failed" if res["error"] else "done")
+        return res
+
     if executor is None and jobs <= 1:
         for k, f in enumerate(files):
             name = Path(f).stem
@@ -663,24 +683,18 @@ def build_library(paths, outdir, *, formats=("tex", "md"), jobs: int = 1, execut
             results.append(build_entry(f, str(out), formats, cache, options, stage))
             if progress is not None:
                 progress(k + 1, total, results[-1]["id"], "failed" if results[-1]["error"] else "done")
+    elif executor is None:
+        results = map_in_workers(partial(build_entry, outdir=str(out), formats=formats, cache=cache,
+                                         options=options), files, jobs,
+                                 on_result=lambda f, res: _arrived(res), on_lost=_failed_entry, reruns=reruns)
     else:
-        own = executor is None
-        ex = executor or ProcessPoolExecutor(max_workers=jobs)
-        try:
-            futures = {ex.submit(build_entry, f, str(out), formats, cache, options): f for f in files}
-            for fut in as_completed(futures):
-                try:
-                    res = fut.result()
-                except Exception as exc:  # noqa: BLE001 - a dead worker fails its entry only
-                    res = {"file": futures[fut], "id": Path(futures[fut]).stem, "title": "", "version": "",
-                           "dimension": 0, "family": "", "reports": {}, "claims": "", "relations": [],
-                           "error": f"worker failed ({type(exc).__name__}: {exc})", "cached": False, "seconds": 0.0}
-                results.append(res)
-                if progress is not None:
-                    progress(len(results), total, res["id"], "failed" if res["error"] else "done")
-        finally:
-            if own:
-                ex.shutdown()
+        futures = {executor.submit(build_entry, f, str(out), formats, cache, options): f for f in files}
+        for fut in as_completed(futures):
+            try:
+                res = fut.result()
+            except Exception as exc:  # noqa: BLE001 - a failed task fails its entry only
+                res = _failed_entry(futures[fut], f"worker failed ({type(exc).__name__}: {exc})")
+            results.append(_arrived(res))
     results.sort(key=lambda e: files.index(e["file"]))
     edges = [x for e in results for x in e["relations"]]
     ctx = index_context(results, edges)
@@ -688,4 +702,5 @@ def build_library(paths, outdir, *, formats=("tex", "md"), jobs: int = 1, execut
     force = getattr(options, "force", False)
     for fmt, template in INDEX_TEMPLATES.items():
         written.append(write_atomic(out / f"index.{fmt}", render(template, ctx), force=force))
-    return LibraryBuild(tuple(results), tuple(written), ctx["failed"], time.perf_counter() - start, tuple(edges))
+    return LibraryBuild(tuple(results), tuple(written), ctx["failed"], time.perf_counter() - start, tuple(edges),
+                        tuple(reruns))
