@@ -6,6 +6,7 @@ import os
 import re
 import shutil
 import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -178,3 +179,234 @@ def test_title_with_latex_commands_is_printed_not_run(tmp_path):
     assert r"\write18{" not in tex
     _compile(out)
     assert not (tmp_path / "pwned").exists()
+
+
+# -- shorthands ----------------------------------------------------------------
+
+KERR_NEWMAN = LIBRARY / "kerr" / "kerr_newman.yaml"
+
+# Kerr-Newman metric functions: Sigma = r^2 + a^2 cos^2(theta), Delta = r^2 - 2Mr + a^2 + Q^2
+# (Newman et al., J. Math. Phys. 6, 918 (1965); Misner, Thorne & Wheeler, Gravitation (1973), eq. 33.2).
+_KN_SIGMA = "(r^2 + a^2*cos(theta)^2)"
+_KN_DELTA = "(r^2 - 2*M*r + a^2 + Q^2)"
+
+
+def _kerr_newman_without_definitions(tmp: Path) -> Path:
+    """A copy of the library's Kerr-Newman file with Sigma and Delta written out where they are used."""
+    text = re.sub(r"definitions:\n(  .*\n)+", "", KERR_NEWMAN.read_text())
+    text = text.replace("Sigma", _KN_SIGMA).replace("Delta", _KN_DELTA)
+    path = tmp / "kerr_newman_plain.yaml"
+    path.write_text(text)
+    return path
+
+
+@pytest.fixture(scope="module")
+def plain_kerr_newman(tmp_path_factory):
+    """(file, model, curvature, printer, context) of Kerr-Newman without definitions, shorthands on."""
+    from texgen.report import ExpressionPrinter, ReportOptions, build_context
+
+    path = _kerr_newman_without_definitions(tmp_path_factory.mktemp("kn"))
+    st = api.load_spacetime(path)
+    assert st.definitions == ()
+    cv = api.derive(st)
+    p = ExpressionPrinter(st, ReportOptions())
+    return path, st, cv, p, build_context(st, cv, ReportOptions(), printer=p)
+
+
+def _symbols(st):
+    return {s.name: s for s in (*st.coordinate_symbols, *st.parameter_symbols)}
+
+
+def test_kerr_newman_without_definitions_names_sigma_and_delta(plain_kerr_newman):
+    _, st, _, p, ctx = plain_kerr_newman
+    s = _symbols(st)
+    r, a, M, Q, theta = s["r"], s["a"], s["M"], s["Q"], s["theta"]
+    sigma = r**2 + a**2 * sp.cos(theta)**2
+    delta = r**2 - 2 * M * r + a**2 + Q**2
+    defs = [x.definition for x in p.shorthands.items]
+    # Sigma first appears in g_tt, Delta in g_rr: numbered in order of first appearance.
+    assert sp.expand(defs[0] - sigma) == 0
+    assert sp.expand(defs[1] - delta) == 0
+    assert [x["name"] for x in ctx["shorthands"][:2]] == [r"\mathcal{A}_{1}", r"\mathcal{A}_{2}"]
+    assert ctx["shorthands"][0]["latex"] == r"a^{2} \cos^{2}{\left(\theta \right)} + r^{2}"
+    assert ctx["shorthands"][0]["label"] == "texgen:kerr-newman:shorthand-1"
+    g = {e["key"]: e["latex"] for e in ctx["metric_components"]}
+    assert g["r,r"] == r"\frac{\mathcal{A}_{1}}{\mathcal{A}_{2}}"
+    assert g["theta,theta"] == r"\mathcal{A}_{1}"
+    assert ctx["determinant"]["latex"] == r"- \mathcal{A}_{1}^{2} \sin^{2}{\left(\theta \right)}"
+    # The JSON-facing text stays the full expression.
+    assert "A" not in ctx["determinant"]["text"] and "cos(theta)" in ctx["determinant"]["text"]
+
+
+def _displayed(cv, ctx):
+    """(context equation, display form, engine value) of every result a report displays."""
+    st = cv.spacetime
+    n = len(st.coordinates)
+    names = [c.name for c in st.coordinates]
+
+    def idx(key):
+        return tuple(names.index(k) for k in key.split(","))
+
+    metric = [(e, st.metric_display[idx(e["key"])], cv.metric[idx(e["key"])]) for e in ctx["metric_components"]]
+    pairs = [(e, cv.inverse[idx(e["key"])]) for e in ctx["inverse_components"]]
+    pairs += [(ctx["determinant"], cv.determinant), (ctx["ricci_scalar"], cv.ricci_scalar)]
+    for key, table in (("christoffel", cv.christoffel), ("riemann", cv.riemann_down), ("ricci", cv.ricci),
+                       ("einstein", cv.einstein), ("einstein_mixed", cv.einstein_mixed), ("weyl", cv.weyl)):
+        pairs += [(e, table[idx(e["key"])]) for e in ctx[key]]
+    values = {"kretschmann": cv.kretschmann, "ricci_squared": cv.ricci_squared, "weyl_squared": cv.weyl_squared}
+    pairs += [(e, values[e["name"]]) for e in ctx["invariants"]]
+    assert len(pairs) > 4 * n
+    return metric + [(e, cv.display(v), v) for e, v in pairs]
+
+
+def test_shorthands_substituted_back_give_each_displayed_result(plain_kerr_newman):
+    from texgen.report import tidy_trig
+
+    _, st, cv, p, ctx = plain_kerr_newman
+    named = 0
+    for eq, display, value in _displayed(cv, ctx):
+        shown = tidy_trig(display)
+        abbreviated = p.shorthands.apply(shown)
+        named += abbreviated != shown
+        # what is printed is the abbreviated form ...
+        assert eq["lines"] == p.lines(abbreviated, lead=eq["lhs"]), eq["lhs"]
+        # ... and putting the definitions back gives the display form and the engine's result
+        back = p.shorthands.expand(abbreviated)
+        assert sp.expand(back - shown) == 0, eq["lhs"]
+        assert cv.is_zero(back - value), eq["lhs"]
+    assert named >= 40
+
+
+def test_every_shorthand_used_is_listed_once_and_every_listed_one_is_used(plain_kerr_newman):
+    _, _, cv, _, ctx = plain_kerr_newman
+    listed = [s["name"] for s in ctx["shorthands"]]
+    assert len(listed) == len(set(listed)) >= 2
+    used = set()
+    for eq, _, _ in _displayed(cv, ctx):
+        used |= set(re.findall(r"\\mathcal\{A\}_\{\d+\}", eq["latex"]))
+    for s in ctx["shorthands"]:
+        used |= set(re.findall(r"\\mathcal\{A\}_\{\d+\}", s["latex"]))
+    assert used == set(listed)
+    # numbered 1, 2, ... and a definition uses only names listed before it
+    assert listed == [r"\mathcal{A}_{%d}" % i for i in range(1, len(listed) + 1)]
+    for i, s in enumerate(ctx["shorthands"]):
+        assert set(re.findall(r"\\mathcal\{A\}_\{\d+\}", s["latex"])) <= set(listed[:i])
+
+
+def test_shorthands_off_prints_results_in_full(plain_kerr_newman):
+    from texgen.report import ReportOptions, build_context
+
+    _, st, cv, _, ctx = plain_kerr_newman
+    off = build_context(st, cv, ReportOptions(shorthands=False))
+    assert off["shorthands"] == []
+    g = {e["key"]: e["latex"] for e in off["metric_components"]}
+    assert g["r,r"] == (r"\frac{a^{2} \cos^{2}{\left(\theta \right)} + r^{2}}"
+                        r"{- 2 M r + Q^{2} + a^{2} + r^{2}}")
+    assert not any(r"\mathcal" in e["latex"] for e, _, _ in _displayed(cv, off))
+    # the same results, fewer display lines with the names
+    lines_on = sum(len(e["lines"]) for e, _, _ in _displayed(cv, ctx))
+    lines_off = sum(len(e["lines"]) for e, _, _ in _displayed(cv, off))
+    assert lines_on < lines_off
+
+
+KASNER = LIBRARY / "cosmology" / "kasner.yaml"
+"""A quick report with one shorthand (u^2 + u + 1, the Kasner exponents' denominator)."""
+
+
+@pytest.mark.parametrize("flag, listed", [([], True), (["--no-shorthands"], False)])
+def test_no_shorthands_flag_on_build(tmp_path, flag, listed):
+    from texgen import cli
+
+    out = tmp_path / "kasner.md"
+    assert cli.main(["build", str(KASNER), "-o", str(out), "--no-figures", "-q", *flag]) == 0
+    md = out.read_text()
+    assert ("## Shorthands" in md) is listed
+    assert (r"\mathcal{A}_{1} = u^{2} + u + 1" in md) is listed
+    assert (r"\mathcal{A}_{1}" in md) is listed
+
+
+def test_schwarzschild_gets_no_shorthands():
+    # Nothing worth naming repeats: 1 - 2M/r is two short terms.
+    st = api.load_spacetime(SCHWARZSCHILD)
+    from texgen.report import build_context
+
+    ctx = build_context(st, api.derive(st))
+    assert ctx["shorthands"] == []
+    assert "Shorthands" not in api.report_text(st, api.derive(st), "tex")
+
+
+def test_user_definition_is_used_instead_of_a_new_name():
+    # Reissner-Nordstrom with f = 1 - 2M/r + Q^2/r^2: the repeated sum r^2 - 2Mr + Q^2 is r^2 f,
+    # so Gamma^r_theta theta = -r f (MTW 1973, ch. 31 / Reissner 1916) and no new name.
+    st = api.load_spacetime(LIBRARY / "charged" / "reissner_nordstrom.yaml")
+    from texgen.report import build_context
+
+    ctx = build_context(st, api.derive(st))
+    assert ctx["shorthands"] == []
+    gamma = {e["key"]: e["latex"] for e in ctx["christoffel"]}
+    assert gamma["r,theta,theta"] == "- f r"
+    assert gamma["r,t,t"] == r"\frac{f \left(M r - Q^{2}\right)}{r^{3}}"
+
+
+@pytest.mark.parametrize("rename, kernel", [
+    ({"Q": "A"}, r"\mathcal{B}"),
+    ({"definitions:": "definitions:\n  X: {value: Q^3, latex: '\\mathcal{A}'}"}, r"\mathcal{B}"),
+    ({"Q": "A", "M": "B", "definitions:": "definitions:\n  X: {value: A^3, latex: '\\mathcal{D}_{0}'}"},
+     r"\mathcal{E}"),
+])
+def test_shorthand_names_never_clash_with_the_spacetime_names(tmp_path, rename, kernel):
+    from texgen.report import build_context, shorthand_kernel
+
+    text = _kerr_newman_without_definitions(tmp_path).read_text()
+    if "definitions:" in rename:
+        text = text.replace("parameters:", "definitions:\nparameters:", 1)
+    for old, new in rename.items():
+        text = re.sub(r"\b%s\b" % re.escape(old) if old.isalnum() else re.escape(old), lambda m: new, text)
+    path = tmp_path / "renamed.yaml"
+    path.write_text(text)
+    st = api.load_spacetime(path)
+    assert shorthand_kernel(st) == kernel
+    ctx = build_context(st, api.derive(st))
+    assert ctx["shorthands"][0]["name"] == kernel + "_{1}"
+    assert all(s["name"].startswith(kernel) for s in ctx["shorthands"])
+
+
+_CONTEXT_SCRIPT = """
+import json, sys
+from texgen import api
+from texgen.report import build_context
+st = api.load_spacetime(sys.argv[1])
+print(json.dumps(build_context(st, api.derive(st)), sort_keys=True))
+"""
+
+
+def test_shorthands_are_the_same_across_hash_seeds(plain_kerr_newman, tmp_path):
+    # The report context only (the full build's determinism is tested in test_render).
+    path = plain_kerr_newman[0]
+    outputs = []
+    for seed in ("3", "4242"):
+        env = dict(os.environ, PYTHONHASHSEED=seed, PYTHONPATH=str(ROOT))
+        proc = subprocess.run([sys.executable, "-c", _CONTEXT_SCRIPT, str(path)], check=True, env=env,
+                              cwd=tmp_path, capture_output=True)
+        outputs.append(proc.stdout)
+    assert json.loads(outputs[0])["shorthands"] == plain_kerr_newman[4]["shorthands"]
+    assert outputs[0] == outputs[1]
+
+
+def test_shorthand_report_compiles_standalone_and_as_fragment(plain_kerr_newman, tmp_path):
+    _, st, cv, _, _ = plain_kerr_newman
+    out = api.build_report(st, tmp_path / "kn.tex", api.BuildOptions(figures=False), curvature=cv)
+    assert r"\subsection*{Shorthands}" in out.read_text()
+    log = _compile(out)
+    assert _overfull(log) == []
+    # two fragments with shorthands in one host: labels namespaced by id
+    api.build_report(st, tmp_path / "a.tex", api.BuildOptions(standalone=False, figures=False), curvature=cv)
+    api.build_report(api.load_spacetime(LIBRARY / "kerr" / "kerr.yaml"), tmp_path / "b.tex",
+                     api.BuildOptions(standalone=False, figures=False))
+    assert r"\label{texgen:kerr:shorthand-1}" in (tmp_path / "b.tex").read_text()
+    host = tmp_path / "host.tex"
+    host.write_text("\\documentclass{article}\n\\usepackage{amsmath,amssymb,graphicx}\n\\usepackage[margin=2.5cm]{geometry}\n"
+                    "\\begin{document}\n\\input{a}\n\\input{b}\n\\end{document}\n")
+    log = _compile(host)
+    assert "multiply defined" not in log
+    assert _overfull(log) == []
