@@ -63,7 +63,7 @@ def test_kerr_newman_horizons_in_profiles(kerr_newman):
     # r_± = M ± sqrt(M² − a² − Q²): Newman et al., J. Math. Phys. 6, 918 (1965); MTW (1973) §33.2.
     d = kerr_newman[3]["profiles"].data
     root = math.sqrt(1 - 0.6**2 - 0.3**2)
-    assert len(d["horizons"]) == 2
+    assert len(d["horizons"]) == 2 and d["horizon_names"] == ["r_+", "r_-"]
     assert _close(d["horizons"][0], 1 + root)
     assert _close(d["horizons"][1], 1 - root)
     assert d["throats"] == []
@@ -328,6 +328,23 @@ def test_de_sitter_cones_tip_outwards_beyond_cosmological_horizon(tmp_path):
         assert c["tipped"] is (c["r"] > 1 + 1e-9), c["r"]
         assert c["towards"] == ("larger" if c["r"] > 1 + 1e-9 else None)
     assert "point to larger $r$" in fig.caption
+
+
+def test_schwarzschild_de_sitter_horizons_named_from_the_outside_in(tmp_path):
+    # f = 1 - 2M/r - Lambda r^2/3 (Kottler 1918; Gibbons and Hawking, Phys. Rev. D 15, 2738 (1977), recalled):
+    # for 9 Lambda M^2 < 1 its positive roots are the black-hole and the cosmological horizon, and beyond the
+    # cosmological one f < 0 again. The shipped file plots M = 1, Lambda = 0.05; roots taken with numpy.
+    import numpy as np
+
+    st, cv = _library("de_sitter/schwarzschild_de_sitter.yaml")
+    (fig,) = draw_figures(st, cv, tmp_path, "sds", formats=("png",), settings={"draw": ["profiles"]})
+    d = fig.data
+    roots = sorted((x.real for x in np.roots([-0.05 / 3, 0, 1, -2]) if abs(x.imag) < 1e-12 and x.real > 0),
+                   reverse=True)
+    assert len(roots) == 2 and len(d["horizons"]) == 2
+    assert all(_close(got, want, 1e-9) for got, want in zip(d["horizons"], roots))
+    assert d["horizon_names"] == ["r_c", "r_+"]
+    assert "$M = 1$, $\\Lambda = 0.05$" in fig.caption
 
 
 def test_hayward_kretschmann_finite_at_the_centre(tmp_path):

@@ -609,7 +609,8 @@ def _profiles(c: _Ctx) -> dict | None:
     gtt_name = "-g_{tt}" if sign_t == -1 else "g_{tt}"
     rname = st.coordinates[c.ri].latex
     return {"r": r, "minus_g_tt": _plain(fg(r)), "g_rr": _plain(fr(r)), "one_over_g_inv_rr": _plain(inv),
-            "horizons": c.horizons, "throats": c.throats, "ergosurfaces": ergos, "photon_sphere": photon,
+            "horizons": c.horizons, "horizon_names": _horizon_names(c, c.horizons), "throats": c.throats,
+            "ergosurfaces": ergos, "photon_sphere": photon,
             "labels": {"minus_g_tt": f"${gtt_name}$", "g_rr": f"$g_{{{rname}{rname}}}$",
                        "one_over_g_inv_rr": f"$1/g^{{{rname}{rname}}}$"}}
 
@@ -907,12 +908,28 @@ def _matplotlib():
     return matplotlib, MplFigure, FigureCanvasAgg
 
 
+def _horizon_names(c: _Ctx, horizons: list) -> list[str]:
+    """r_+, r_- ... from the outside in; an outermost horizon beyond which r = const is timelike
+    no more (g^rr < 0 outside, as the cosmological horizon of Schwarzschild-de Sitter) is r_c."""
+    names = ["r_+", "r_-"] + [f"r_{k}" for k in range(3, len(horizons) + 1)]
+    if not horizons:
+        return []
+    finv = c.num.function(c.cv.inverse[c.ri, c.ri])
+    outer = max(horizons)
+    if finv is not None:
+        with _np().errstate(all="ignore"):
+            beyond = float(finv([outer + 1e-3 * max(abs(outer), 1.0)])[0])
+        if beyond < 0:
+            return ["r_c"] + names[: len(horizons) - 1]
+    return names[: len(horizons)]
+
+
 def _marks(ax, c: _Ctx, d: dict):
     u = c.u
     per = f"/{c.unit_tex}" if c.unit_tex else ""
-    for k, x in enumerate(u(x) for x in d.get("horizons") or []):
-        ax.axvline(x, color=PALETTE[0], linestyle=":", linewidth=1,
-                   label=f"horizon ${'r_+' if k == 0 else 'r_-' if k == 1 else 'r_%d' % k}{per} = {x:.4g}$")
+    horizons = d.get("horizons") or []
+    for name, x in zip(d.get("horizon_names") or _horizon_names(c, horizons), map(u, horizons)):
+        ax.axvline(x, color=PALETTE[0], linestyle=":", linewidth=1, label=f"horizon ${name}{per} = {x:.4g}$")
     for x in map(u, d.get("throats") or []):
         ax.axvline(x, color=PALETTE[3], linestyle="-.", linewidth=1, label=f"throat ${x:.4g}$")
     for x in map(u, d.get("ergosurfaces") or []):
@@ -1065,7 +1082,7 @@ _DEC = r"\rho \geq |p_i|"
 
 
 def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
-    vals = c.values_tex if tex else c.values_text
+    vals = c.values_tex  # math in both: Markdown renders $...$ as LaTeX does
     def m(text):
         return f"${text}$"
 
