@@ -413,3 +413,28 @@ def test_no_figures_build_writes_no_figure_files_and_keeps_its_own_entry(figured
     assert [e["cached"] for e in again.entries + figs.entries] == [True, True, True, True]
     assert "morris-thorne-profiles.png" in _snapshot(tmp_path / "figs")
     assert not any(name.endswith(".png") for name in _snapshot(tmp_path / "plain2"))
+
+
+def test_no_shorthands_folder_build_equals_the_single_file_build_and_keeps_its_own_entry(figured, tmp_path):
+    """--no-shorthands reaches folder builds: no Shorthands list, the single-file report's bytes, and a cache
+    entry apart from the default one (which keeps hitting)."""
+    import shutil
+
+    from texgen import api
+    from texgen.cache import ResultCache
+    from texgen.library import build_library
+
+    tmp, folder, _, _ = figured
+    shutil.copytree(tmp / "cache", tmp_path / "cache")
+    cache = ResultCache(tmp_path / "cache")
+    opts = api.BuildOptions(figures=False, shorthands=False)
+    full = build_library([folder], tmp_path / "full", formats=("md",), cache=cache, options=opts)
+    assert [e["cached"] for e in full.entries] == [False, False]
+    md = (tmp_path / "full" / "morris-thorne.md").read_text(encoding="utf-8")
+    assert "## Shorthands" not in md
+    assert "## Shorthands" in (tmp / "out" / "morris-thorne.md").read_text(encoding="utf-8")
+    single = api.build_report(folder / FIGURED[0], tmp_path / "single.md", opts)
+    assert single.read_text(encoding="utf-8") == md
+    again = build_library([folder], tmp_path / "again", formats=("md",), cache=cache, options=opts)
+    default = build_library([folder], tmp_path / "default", formats=("md",), cache=cache, options=api.BuildOptions())
+    assert [e["cached"] for e in again.entries + default.entries] == [True, True, True, True]

@@ -159,9 +159,6 @@ def _build_folder(args: argparse.Namespace, out: Path) -> int:
         # Entries done out of all, and the stage of the entry at work (in-process builds).
         bar(f"{entry}: {stage}", done, total)
 
-    if args.no_shorthands:
-        print("warning: --no-shorthands is not yet used by folder builds; their reports name repeated sums",
-              file=sys.stderr)
     opts = api.BuildOptions(standalone=not args.fragment, section_level=_LEVELS[args.section_level],
                             template_dir=args.template, force=args.force, figures=not args.no_figures,
                             shorthands=not args.no_shorthands)

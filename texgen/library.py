@@ -377,6 +377,8 @@ def check_library(folder: str | Path, *, record_path: str | Path | None = None) 
 
 def _options_key(options, figures: bool = False) -> dict:
     key = {"section_level": getattr(options, "section_level", 1)}
+    if not getattr(options, "shorthands", True):
+        key["shorthands"] = False  # the context then has none: an entry of its own
     if figures:
         # the drawing library's version changes the bytes of the figure files
         key["figures"] = _matplotlib_version()
@@ -487,7 +489,8 @@ def entry_payload(model: Spacetime, *, options=None, cache=None, progress: Calla
     cv = api.derive(model, progress=progress)
     if keep is not None:
         keep.append(cv)
-    ropts = ReportOptions(section_level=getattr(options, "section_level", 1))
+    ropts = ReportOptions(section_level=getattr(options, "section_level", 1),
+                          shorthands=getattr(options, "shorthands", True))
     results = build_results(model, cv, api.extra_results(model, cv))
     sections = api.extra_sections(model, cv, ExpressionPrinter(model, ropts))
     drawn: dict = {}
@@ -549,7 +552,7 @@ def _edges(model: Spacetime) -> list[dict]:
 def _failed_entry(path: str, reason: str) -> dict:
     """The summary of an entry whose worker could not return one."""
     return {"file": path, "id": Path(path).stem, "title": "", "version": "", "dimension": 0, "family": "",
-            "reports": {}, "claims": "", "relations": [], "error": f"{path}: {reason}", "cached": False,
+            "reports": {}, "figures": [], "claims": "", "relations": [], "error": f"{path}: {reason}", "cached": False,
             "seconds": 0.0}
 
 
