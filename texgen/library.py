@@ -552,8 +552,8 @@ def _edges(model: Spacetime) -> list[dict]:
 def _failed_entry(path: str, reason: str) -> dict:
     """The summary of an entry whose worker could not return one."""
     return {"file": path, "id": Path(path).stem, "title": "", "version": "", "dimension": 0, "family": "",
-            "reports": {}, "figures": [], "claims": "", "relations": [], "error": f"{path}: {reason}", "cached": False,
-            "seconds": 0.0}
+            "reports": {}, "figures": [], "claims": "", "relations": [], "error": f"{path}: {reason}",
+            "cached": False, "seconds": 0.0}
 
 
 def build_entry(path: str, outdir: str, formats: tuple[str, ...], cache=None, options=None,
