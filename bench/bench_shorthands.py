@@ -51,6 +51,7 @@ def displayed(ctx: dict) -> list[dict]:
 def measure(st) -> dict:
     cv = api.derive(st)
     row = {}
+    shown = {}
     for on in (False, True):
         start = time.perf_counter()
         ctx = build_context(st, cv, ReportOptions(shorthands=on))
@@ -59,6 +60,11 @@ def measure(st) -> dict:
         row[on] = {"omitted": sum(1 for e in eqs if e["omitted"]), "lines": sum(len(e["lines"]) for e in eqs),
                    "names": len(ctx["shorthands"]), "name_lines": sum(len(s["lines"]) for s in ctx["shorthands"]),
                    "seconds": seconds, "results": len(eqs)}
+        shown[on] = eqs
+    # lines of the results both runs typeset: the like-for-like comparison
+    both = [(a, b) for a, b in zip(shown[False], shown[True]) if not a["omitted"] and not b["omitted"]]
+    for on in (False, True):
+        row[on]["common"] = sum(len(pair[on]["lines"]) for pair in both)
     return row
 
 
@@ -76,11 +82,11 @@ def main(argv: list[str] | None = None) -> int:
         if args.skip_slow and any(part in SLOW for part in f.parts):
             continue
         cases.append((f.stem, api.load_spacetime(f)))
-    head = (f"{'entry':32} {'results':>7} {'omitted':>9} {'lines':>11} {'ratio':>6} {'names':>5} "
+    head = (f"{'entry':32} {'results':>7} {'omitted':>9} {'lines':>11} {'in both':>11} {'ratio':>6} {'names':>5} "
             f"{'name lines':>10} {'s off':>6} {'s on':>6}")
     print(head)
     print("-" * len(head))
-    total = {False: [0, 0, 0.0], True: [0, 0, 0.0]}
+    total = {False: [0, 0, 0.0, 0], True: [0, 0, 0.0, 0]}
     for name, st in cases:
         row = measure(st)
         off, on = row[False], row[True]
@@ -88,16 +94,19 @@ def main(argv: list[str] | None = None) -> int:
             total[k][0] += row[k]["omitted"]
             total[k][1] += row[k]["lines"] + row[k]["name_lines"]
             total[k][2] += row[k]["seconds"]
-        ratio = on["lines"] / off["lines"] if off["lines"] else 1.0
+            total[k][3] += row[k]["common"]
+        ratio = on["common"] / off["common"] if off["common"] else 1.0
         print(f"{name[:32]:32} {off['results']:7d} {off['omitted']:4d}>{on['omitted']:<4d} "
-              f"{off['lines']:5d}>{on['lines']:<5d} {ratio:6.2f} {on['names']:5d} {on['name_lines']:10d} "
+              f"{off['lines']:5d}>{on['lines']:<5d} {off['common']:5d}>{on['common']:<5d} {ratio:6.2f} {on['names']:5d} {on['name_lines']:10d} "
               f"{off['seconds']:6.1f} {on['seconds']:6.1f}", flush=True)
     print("-" * len(head))
     print(f"{'total':32} {'':7} {total[False][0]:4d}>{total[True][0]:<4d} "
-          f"{total[False][1]:5d}>{total[True][1]:<5d} {total[True][1] / max(total[False][1], 1):6.2f} "
+          f"{total[False][1]:5d}>{total[True][1]:<5d} {total[False][3]:5d}>{total[True][3]:<5d} "
+          f"{total[True][3] / max(total[False][3], 1):6.2f} "
           f"{'':5} {'':10} {total[False][2]:6.1f} {total[True][2]:6.1f}")
-    print("lines: display lines of all results (the total adds the shorthand list's own lines); "
-          "omitted: results left to the JSON report")
+    print("lines: display lines of all results (the total adds the shorthand list's own lines); in both: lines "
+          "of the results typeset with and without shorthands, ratio on/off of these; omitted: results left to the "
+          "JSON report")
     return 0
 
 
