@@ -13,6 +13,7 @@ import multiprocessing
 import signal
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from concurrent.futures.process import BrokenProcessPool
+from contextlib import contextmanager
 from typing import Any
 
 from .derive import Curvature
@@ -99,9 +100,7 @@ class HeavyCurvature(Curvature):
 
     def _run_pool(self, jobs: int, groups: list, fork: bool, failures: list) -> None:
         ctx = multiprocessing.get_context("fork" if fork else "spawn")
-        before = set(multiprocessing.active_children())
-        pool = ProcessPoolExecutor(max_workers=min(jobs, len(groups)), mp_context=ctx, initializer=_worker_init)
-        try:
+        with _worker_pool(min(jobs, len(groups)), ctx) as pool:
             arg = None if fork else (self.spacetime, self.budget, self.backend)
             futures = {pool.submit(_work, grp, arg): grp for grp in groups}
             done = 0
@@ -118,13 +117,22 @@ class HeavyCurvature(Curvature):
                 done += 1
                 if self.progress is not None:
                     self.progress("parallel stages", done, len(groups))
-        except BaseException:
-            # Ctrl-C, SIGTERM or a dead worker: stop the other workers now rather than wait for them
-            for proc in set(multiprocessing.active_children()) - before:
-                proc.terminate()
-            raise
-        finally:
-            pool.shutdown(wait=True, cancel_futures=True)
+
+
+@contextmanager
+def _worker_pool(jobs: int, ctx=None):
+    """A process pool whose workers are stopped at once when the ``with`` body raises (Ctrl-C,
+    SIGTERM, a dead worker) rather than waited for, and shut down when it ends."""
+    before = set(multiprocessing.active_children())
+    pool = ProcessPoolExecutor(max_workers=max(1, jobs), mp_context=ctx, initializer=_worker_init)
+    try:
+        yield pool
+    except BaseException:
+        for proc in set(multiprocessing.active_children()) - before:
+            proc.terminate()
+        raise
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
 
 
 def _worker_init() -> None:
@@ -207,9 +215,7 @@ def _settle(items: list, i: int, value, results: dict, on_result) -> None:
 def _pool_round(fn, items: list, indices: list[int], jobs: int, results: dict, on_result, on_lost) -> None:
     """Run ``fn`` on ``items[i]`` for ``i`` in ``indices`` in one pool; the items a broken pool
     took down are left out of ``results`` for the next round."""
-    before = set(multiprocessing.active_children())
-    pool = ProcessPoolExecutor(max_workers=max(1, min(jobs, len(indices))), initializer=_worker_init)
-    try:
+    with _worker_pool(min(jobs, len(indices))) as pool:
         futures = {pool.submit(fn, items[i]): i for i in indices}
         for fut in as_completed(futures):
             i = futures[fut]
@@ -220,9 +226,3 @@ def _pool_round(fn, items: list, indices: list[int], jobs: int, results: dict, o
             except Exception as exc:  # noqa: BLE001 - one item's failure must not stop the others
                 value = _lost(on_lost, items[i], f"worker failed ({type(exc).__name__}: {exc})")
             _settle(items, i, value, results, on_result)
-    except BaseException:
-        for proc in set(multiprocessing.active_children()) - before:
-            proc.terminate()
-        raise
-    finally:
-        pool.shutdown(wait=True, cancel_futures=True)
