@@ -105,7 +105,9 @@ def test_kerr_newman_parameter_plane(kerr_newman):
     assert (d["x_name"], d["y_name"], d["scale_name"]) == ("a", "Q", "M")
     assert d["regions"] == ["two horizons", "one horizon", "no horizon (naked singularity)"]
     assert d["point"] == [0.6, 0.3]
-    assert d["extremal_text"] == "-4*Q**2 - 4*a**2 + 4 = 0"
+    # the extremal line a^2 + Q^2 = M^2, written with the parameters, not with M = 1 put in
+    assert (d["extremal_text"], d["extremal_tex"]) == ("Q**2 + a**2 = M**2", "Q^{2} + a^{2} = M^{2}")
+    assert "The solid line is the extremal case $Q^{2} + a^{2} = M^{2}$" in kerr_newman[3]["parameter_plane"].caption
     checked = 0
     for j, q in enumerate(d["y"]):
         for i, a in enumerate(d["x"]):

@@ -749,6 +749,7 @@ def _plane(c: _Ctx) -> dict | None:
     labels = {2: "two horizons", 1: "one horizon", 0: "no horizon (naked singularity)"}
     present = sorted({int(k) for k in counts.flat if k >= 0}, reverse=True)
     disc = sp.discriminant(poly.as_expr(), c.radial) if poly.degree() == 2 else None
+    extremal = _extremal_condition(h.xreplace(others), c.radial) if disc is not None else None
     point = None
     if scale is not None:
         sv = c.fs.values.get(scale)
@@ -759,8 +760,26 @@ def _plane(c: _Ctx) -> dict | None:
             "x_tex": _latex_of(c.st, x), "y_tex": _latex_of(c.st, y),
             "scale_tex": _latex_of(c.st, scale) if scale is not None else None,
             "regions": [labels.get(k, f"{k} horizons") for k in present],
-            "extremal_text": f"{disc} = 0" if disc is not None else None,
+            "extremal_text": f"{extremal[0]} = {extremal[1]}" if extremal else None,
+            "extremal_tex": (f"{sp.latex(extremal[0], symbol_names=c.st.latex_names())} = "
+                             f"{sp.latex(extremal[1], symbol_names=c.st.latex_names())}") if extremal else None,
             "_disc": disc, "point": point}
+
+
+def _extremal_condition(h: sp.Expr, r: sp.Symbol) -> tuple[sp.Expr, sp.Expr] | None:
+    """The double-zero condition of the quadratic horizon function ``h`` as ``lhs = rhs``, each side a
+    sum of positive terms (Kerr–Newman: a^2 + Q^2 = M^2), with the parameters kept, not scaled."""
+    disc = sp.discriminant(sp.expand(h), r)
+    _, prim = sp.factor_terms(sp.expand(disc)).as_content_primitive()
+    prim = sp.expand(prim)
+    terms = sp.Add.make_args(prim)
+    pos = [t for t in terms if not t.could_extract_minus_sign()]
+    neg = [-t for t in terms if t.could_extract_minus_sign()]
+    if not pos or not neg:
+        return (prim, sp.Integer(0)) if prim != 0 else None
+    # the side with fewer terms (the scale, M^2) on the right, as the condition is usually written
+    lhs, rhs = (neg, pos) if len(neg) >= len(pos) else (pos, neg)
+    return sp.Add(*lhs), sp.Add(*rhs)
 
 
 def _declared_nonneg(st, sym) -> bool:
@@ -1139,7 +1158,7 @@ def _caption(c: _Ctx, name: str, d: dict, tex: bool) -> str:
         text = (f"Number of horizons (real zeros of the horizon function with {m(rn)} in the declared range) in the "
                 f"{m(xs)}, {m(ys)} plane: " + ", ".join(d["regions"]) + ".")
         if d["_disc"] is not None:
-            text += f" The solid line is the extremal case, where the discriminant {m(sp.latex(d['_disc']) + ' = 0')}."
+            text += f" The solid line is the extremal case {m(d['extremal_tex'])}, where the two horizons merge."
         if d["point"]:
             text += f" The dot marks {vals}."
         return text
