@@ -1,9 +1,11 @@
-"""Shared fixtures for the spacetime-file tests: sample files and the bad-input catalogue."""
+"""Shared fixtures: sample spacetime files, the bad-input catalogue, a counter of derivations made."""
 from __future__ import annotations
 
 from pathlib import Path
 
 import pytest
+
+import texgen.derive
 
 BAD_INPUTS = Path(__file__).parent / "bad_inputs"
 """The catalogue of bad spacetime files; expected.yaml says what each must report."""
@@ -71,3 +73,17 @@ def write(tmp_path):
         return path
 
     return _write
+
+
+@pytest.fixture
+def spy(monkeypatch):
+    """Ids of the spacetimes whose Curvature is made (through texgen.derive.Curvature) during the test."""
+    made = []
+
+    class Spy(texgen.derive.Curvature):
+        def __init__(self, *a, **k):
+            made.append(a[0].id)
+            super().__init__(*a, **k)
+
+    monkeypatch.setattr(texgen.derive, "Curvature", Spy)
+    return made

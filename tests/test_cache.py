@@ -7,27 +7,12 @@ from pathlib import Path
 
 import pytest
 
-import texgen.derive
 from texgen import api
 from texgen.cache import ResultCache, default_dir, entry_key
 from texgen.library import entry_payload, render_payload
 
 LIB = Path(__file__).resolve().parent.parent / "metrics_yaml"
 SCHW = LIB / "schwarzschild" / "schwarzschild.yaml"
-
-
-@pytest.fixture
-def spy(monkeypatch):
-    """Count Curvature objects made anywhere through texgen.derive.Curvature."""
-    made = []
-
-    class Spy(texgen.derive.Curvature):
-        def __init__(self, *a, **k):
-            made.append(a[0].id)
-            super().__init__(*a, **k)
-
-    monkeypatch.setattr(texgen.derive, "Curvature", Spy)
-    return made
 
 
 @pytest.fixture(scope="module")

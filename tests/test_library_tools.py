@@ -304,25 +304,16 @@ def test_index_latex(built):
     assert tex.rstrip().endswith("\\end{document}")
 
 
-def test_warm_bulk_build_recomputes_nothing(built, monkeypatch):
+def test_warm_bulk_build_recomputes_nothing(built, spy):
     """Second build in this process with the same cache: every entry a hit, no Curvature made."""
-    import texgen.derive
     from texgen.cache import ResultCache
     from texgen.library import build_library
 
     tmp, folder, _, _ = built
-    made = []
-
-    class Spy(texgen.derive.Curvature):
-        def __init__(self, *a, **k):
-            made.append(a[0].id)
-            super().__init__(*a, **k)
-
-    monkeypatch.setattr(texgen.derive, "Curvature", Spy)
     before = (tmp / "out" / "schwarzschild.tex").read_text(encoding="utf-8")
     result = build_library([folder], tmp / "out", formats=("tex", "md", "json"),
                            cache=ResultCache(tmp / "cache"))
-    assert made == []
+    assert spy == []
     assert [e["cached"] for e in result.entries] == [False, True, True, True, True]
     assert (tmp / "out" / "schwarzschild.tex").read_text(encoding="utf-8") == before
 
