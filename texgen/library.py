@@ -549,11 +549,16 @@ def _edges(model: Spacetime) -> list[dict]:
     return out
 
 
+def _blank_entry(path: str) -> dict[str, Any]:
+    """The summary of an entry before anything is known of it but its file."""
+    return {"file": str(path), "id": Path(path).stem, "title": "", "version": "", "dimension": 0, "family": "",
+            "reports": {}, "claims": "", "relations": [], "error": None, "cached": False, "figures": [],
+            "seconds": 0.0}
+
+
 def _failed_entry(path: str, reason: str) -> dict:
     """The summary of an entry whose worker could not return one."""
-    return {"file": path, "id": Path(path).stem, "title": "", "version": "", "dimension": 0, "family": "",
-            "reports": {}, "figures": [], "claims": "", "relations": [], "error": f"{path}: {reason}",
-            "cached": False, "seconds": 0.0}
+    return dict(_blank_entry(path), error=f"{path}: {reason}")
 
 
 def build_entry(path: str, outdir: str, formats: tuple[str, ...], cache=None, options=None,
@@ -563,9 +568,7 @@ def build_entry(path: str, outdir: str, formats: tuple[str, ...], cache=None, op
     from .render import write_atomic
 
     start = time.perf_counter()
-    out: dict[str, Any] = {"file": str(path), "id": Path(path).stem, "title": "", "version": "", "dimension": 0,
-                           "family": "", "reports": {}, "claims": "", "relations": [], "error": None,
-                           "cached": False, "figures": []}
+    out = _blank_entry(path)
     try:
         model = api.load_spacetime(path)
         out.update(id=model.id, title=model.title, version=model.version, dimension=model.dimension,
