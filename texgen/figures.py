@@ -22,6 +22,7 @@ import io
 import math
 import os
 from dataclasses import dataclass
+from functools import cached_property
 from pathlib import Path
 
 import sympy as sp
@@ -437,6 +438,24 @@ class _Ctx:
     def throats(self) -> list:
         return [] if self.horizon else list(self.specials)
 
+    @cached_property
+    def horizon_names(self) -> list[str]:
+        """Names of :attr:`horizons`: r_+, r_- ... from the outside in; an outermost horizon beyond
+        which r = const is timelike no more (g^rr < 0 outside, as the cosmological horizon of
+        Schwarzschild-de Sitter) is r_c."""
+        horizons = self.horizons
+        names = ["r_+", "r_-"] + [f"r_{k}" for k in range(3, len(horizons) + 1)]
+        if not horizons:
+            return []
+        finv = self.num.function(self.cv.inverse[self.ri, self.ri])
+        outer = max(horizons)
+        if finv is not None:
+            with _np().errstate(all="ignore"):
+                beyond = float(finv([outer + 1e-3 * max(abs(outer), 1.0)])[0])
+            if beyond < 0:
+                return ["r_c"] + names[: len(horizons) - 1]
+        return names[: len(horizons)]
+
 
 def _values_text(st, fs, tex: bool) -> str:
     items = []
@@ -609,7 +628,7 @@ def _profiles(c: _Ctx) -> dict | None:
     gtt_name = "-g_{tt}" if sign_t == -1 else "g_{tt}"
     rname = st.coordinates[c.ri].latex
     return {"r": r, "minus_g_tt": _plain(fg(r)), "g_rr": _plain(fr(r)), "one_over_g_inv_rr": _plain(inv),
-            "horizons": c.horizons, "horizon_names": _horizon_names(c, c.horizons), "throats": c.throats,
+            "horizons": c.horizons, "horizon_names": c.horizon_names, "throats": c.throats,
             "ergosurfaces": ergos, "photon_sphere": photon,
             "labels": {"minus_g_tt": f"${gtt_name}$", "g_rr": f"$g_{{{rname}{rname}}}$",
                        "one_over_g_inv_rr": f"$1/g^{{{rname}{rname}}}$"}}
@@ -927,28 +946,13 @@ def _matplotlib():
     return matplotlib, MplFigure, FigureCanvasAgg
 
 
-def _horizon_names(c: _Ctx, horizons: list) -> list[str]:
-    """r_+, r_- ... from the outside in; an outermost horizon beyond which r = const is timelike
-    no more (g^rr < 0 outside, as the cosmological horizon of Schwarzschild-de Sitter) is r_c."""
-    names = ["r_+", "r_-"] + [f"r_{k}" for k in range(3, len(horizons) + 1)]
-    if not horizons:
-        return []
-    finv = c.num.function(c.cv.inverse[c.ri, c.ri])
-    outer = max(horizons)
-    if finv is not None:
-        with _np().errstate(all="ignore"):
-            beyond = float(finv([outer + 1e-3 * max(abs(outer), 1.0)])[0])
-        if beyond < 0:
-            return ["r_c"] + names[: len(horizons) - 1]
-    return names[: len(horizons)]
-
-
 def _marks(ax, c: _Ctx, d: dict):
     u = c.u
     per = f"/{c.unit_tex}" if c.unit_tex else ""
-    horizons = d.get("horizons") or []
-    for name, x in zip(d.get("horizon_names") or _horizon_names(c, horizons), map(u, horizons)):
-        ax.axvline(x, color=PALETTE[0], linestyle=":", linewidth=1, label=f"horizon ${name}{per} = {x:.4g}$")
+    names = dict(zip(c.horizons, c.horizon_names))  # a figure may mark only some of them
+    for x in d.get("horizons") or []:
+        ax.axvline(u(x), color=PALETTE[0], linestyle=":", linewidth=1,
+                   label=f"horizon ${names.get(x, 'r_h')}{per} = {u(x):.4g}$")
     for x in map(u, d.get("throats") or []):
         ax.axvline(x, color=PALETTE[3], linestyle="-.", linewidth=1, label=f"throat ${x:.4g}$")
     for x in map(u, d.get("ergosurfaces") or []):
