@@ -185,16 +185,16 @@ def map_in_workers(fn, items: list, jobs: int, *, on_result=None, on_lost=None, 
     """
     results: dict[int, Any] = {}
     pending = list(range(len(items)))
-    for again, size in enumerate((jobs, jobs, 1)):
+    for again in range(3):  # the pool, a fresh pool, then one process per item
         if not pending:
             break
         if again and reruns is not None:
             reruns.append(len(pending))
-        if size == 1 and len(pending) > 1:
-            for i in pending:  # one process per item: a death names its item
+        if again == 2:
+            for i in pending:  # a death now names its item
                 _pool_round(fn, items, [i], 1, results, on_result, on_lost)
         else:
-            _pool_round(fn, items, pending, size, results, on_result, on_lost)
+            _pool_round(fn, items, pending, jobs, results, on_result, on_lost)
         pending = [i for i in pending if i not in results]
     for i in pending:
         _settle(items, i, _lost(on_lost, items[i], "its worker process died (killed, or out of memory?)"),
