@@ -1,7 +1,7 @@
 """The naive baseline: plain sympy loops with ``simplify`` on every component.
 
 This is the straightforward notebook approach the engine is measured against: the
-same quantities as ``texgen.derive.derive`` (inverse, Christoffel symbols, Riemann,
+same quantities as ``texgen.engine.compute_all`` (inverse, Christoffel symbols, Riemann,
 Ricci, Einstein, Weyl, the three invariants, the identity check, Bianchi, geodesics),
 each component simplified as soon as it is formed.  Run by hand:
 

@@ -5,7 +5,7 @@ Run by hand (not part of the test suite):
     python bench/bench_engine.py [--cap SECONDS] [--skip-baseline]
 
 For Schwarzschild and Kerr-Newman (Boyer-Lindquist) it computes everything
-``texgen.derive.derive`` offers, pinned to one core, and prints per-stage wall and CPU
+``texgen.engine.compute_all`` offers, pinned to one core, and prints per-stage wall and CPU
 seconds, the peak memory (tracemalloc peak of a second, traced run, and the process's
 maximum resident set), then runs ``bench/baseline_naive.py`` in a subprocess stopped
 at the cap and prints the ratios.  A baseline stopped at the cap is reported as
@@ -30,9 +30,9 @@ sys.path.insert(0, str(HERE.parent))
 sys.path.insert(0, str(HERE))
 
 import_start = time.perf_counter()
-from texgen import _fields  # noqa: E402
-from texgen.derive import derive  # noqa: E402
-from texgen.model import spacetime_from_matrix  # noqa: E402
+from texgen.engine import algebra as _fields  # noqa: E402
+from texgen.engine import compute_all as derive  # noqa: E402
+from texgen.spec.model import spacetime_from_matrix  # noqa: E402
 
 import baseline_naive  # noqa: E402
 

@@ -5,8 +5,8 @@ Run by hand (not part of the test suite):
     python bench/bench_heavy.py [--cap SECONDS] [--cases NAME ...] [--skip-baseline]
 
 Each case of bench/heavy_cases.py runs in a fresh interpreter pinned to one core:
-everything ``texgen.derive.derive`` offers, then the matter analysis
-(``texgen.analysis.analyse``) and the LaTeX report (``texgen.api.report_text``).
+everything ``texgen.engine.compute_all`` offers, then the matter analysis
+(``texgen.physics.analysis.analyse``) and the LaTeX report (``texgen.api.report_text``).
 It prints wall and CPU seconds per stage (from ``Curvature.timings`` and
 ``cpu_timings``), the child's maximum resident set, and the ratio of the naive
 baseline (``baseline_naive.naive_all``: plain sympy, ``simplify`` per component),
@@ -57,8 +57,9 @@ def pin_one_core() -> None:
 
 def case_main(name: str) -> int:
     """Child: measure one case after import, print one JSON line."""
-    from texgen import analysis, api
-    from texgen.derive import derive
+    from texgen import api
+    from texgen.engine import compute_all as derive
+    from texgen.physics import analysis
     from texgen.errors import TexgenError
 
     model = heavy_cases.load(name)

@@ -31,8 +31,8 @@ for part in ("texgen", "templates", "metrics_yaml"):
 sys.path.insert(0, str(SNAPSHOT))
 
 from texgen.api import BuildOptions  # noqa: E402
-from texgen.cache import ResultCache  # noqa: E402
-from texgen.library import build_library  # noqa: E402
+from texgen.library.cache import ResultCache  # noqa: E402
+from texgen.library.build import build_library  # noqa: E402
 
 TARGET = 20.0
 

@@ -23,7 +23,8 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
 from texgen import api  # noqa: E402
-from texgen.report import ReportOptions, build_context  # noqa: E402
+from texgen.output.context import build_context  # noqa: E402
+from texgen.output.printer import ReportOptions  # noqa: E402
 
 KERR_NEWMAN = ROOT / "metrics_yaml" / "kerr" / "kerr_newman.yaml"
 SLOW = ("warp",)

@@ -1,11 +1,27 @@
 """Shared fixtures: sample spacetime files, the bad-input catalogue, a counter of derivations made."""
 from __future__ import annotations
 
+import os
+import re
+import shutil
+import subprocess
 from pathlib import Path
 
 import pytest
+from hypothesis import settings
 
-import texgen.derive
+import texgen.engine
+
+# Property tests draw the same examples on every run, so that CI is reproducible
+# (a failure found once is found again); bench/fuzz_long.py does the open-ended search.
+settings.register_profile("texgen", derandomize=True)
+settings.load_profile("texgen")
+
+ROOT = Path(__file__).resolve().parent.parent
+"""The repository's root folder."""
+
+LIBRARY = ROOT / "metrics_yaml"
+"""The shipped library of spacetime files."""
 
 BAD_INPUTS = Path(__file__).parent / "bad_inputs"
 """The catalogue of bad spacetime files; expected.yaml says what each must report."""
@@ -77,13 +93,49 @@ def write(tmp_path):
 
 @pytest.fixture
 def spy(monkeypatch):
-    """Ids of the spacetimes whose Curvature is made (through texgen.derive.Curvature) during the test."""
+    """Ids of the spacetimes whose Curvature is made (through texgen.engine.Curvature) during the test."""
     made = []
 
-    class Spy(texgen.derive.Curvature):
+    class Spy(texgen.engine.Curvature):
         def __init__(self, *a, **k):
             made.append(a[0].id)
             super().__init__(*a, **k)
 
-    monkeypatch.setattr(texgen.derive, "Curvature", Spy)
+    monkeypatch.setattr(texgen.engine, "Curvature", Spy)
     return made
+
+
+# -- compiling LaTeX reports -------------------------------------------------------
+
+OVERFULL_TOLERANCE_PT = 3.0
+"""Overfull boxes up to this width are tolerated (invisible at print resolution)."""
+
+
+def _pdflatex() -> str:
+    exe = shutil.which("pdflatex")
+    if exe is None:
+        if os.environ.get("CI"):
+            pytest.fail("pdflatex is required in CI (install texlive-latex-recommended)")
+        pytest.skip("pdflatex not installed")
+    return exe
+
+
+def _compile(tex: Path) -> str:
+    """Compile twice in non-stop mode; return the log, failing on any LaTeX error."""
+    exe = _pdflatex()
+    for _ in range(2):
+        proc = subprocess.run([exe, "-interaction=nonstopmode", "-halt-on-error", "-no-shell-escape", tex.name],
+                              cwd=tex.parent, capture_output=True, text=True, errors="replace",
+                              stdin=subprocess.DEVNULL, timeout=300)
+        log = tex.with_suffix(".log").read_text(errors="replace")
+        assert proc.returncode == 0, f"pdflatex failed on {tex.name}:\n" + "\n".join(
+            line for line in log.splitlines() if line.startswith("!"))[:2000]
+    return log
+
+
+def _overfull(log: str) -> list[str]:
+    bad = []
+    for m in re.finditer(r"Overfull \\hbox \(([\d.]+)pt too wide\)[^\n]*", log):
+        if float(m.group(1)) > OVERFULL_TOLERANCE_PT:
+            bad.append(m.group(0))
+    return bad

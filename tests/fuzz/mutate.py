@@ -14,10 +14,10 @@ from pathlib import Path
 
 import yaml
 
-from texgen.claims import parse_claims
+from texgen.physics.claims import parse_claims
 from texgen.errors import TexgenError
-from texgen.loader import load_text
-from texgen.schema import build_model
+from texgen.spec.loader import load_text
+from texgen.spec.schema import build_model
 
 LIBRARY = Path(__file__).resolve().parents[2] / "metrics_yaml"
 SEEDS = {str(p.relative_to(LIBRARY)): p.read_bytes() for p in sorted(LIBRARY.rglob("*.yaml"))}

@@ -1,0 +1,3 @@
+"""texgen's version, in one place (``pyproject.toml`` carries the same number)."""
+
+__version__ = "0.1.0"
