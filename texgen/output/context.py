@@ -16,7 +16,8 @@ from .._version import __version__
 from ..errors import BudgetExceeded, DerivationError
 from ..spec.expressions import expression_to_text
 from ..spec.model import Spacetime
-from .latex import escape_text, estimate_width, to_latex, to_latex_lines
+from .latex import escape_text, to_latex
+from .layout import estimate_width, to_latex_lines
 from .printer import MAX_LINES, ExpressionPrinter, ReportOptions, equation, label as _label, tidy_trig
 from .shorthands import find_shorthands
 

@@ -15,7 +15,8 @@ import sympy as sp
 
 from ..spec.expressions import expression_to_text
 from ..spec.model import Spacetime
-from .latex import MAX_WIDTH, component_symbol, estimate_width, to_latex, to_latex_lines
+from .latex import component_symbol, to_latex
+from .layout import MAX_WIDTH, estimate_width, to_latex_lines
 from .shorthands import Shorthands
 
 __all__ = ["MAX_LINES", "MAX_WIDTH", "ExpressionPrinter", "ReportOptions", "equation", "label", "tidy_trig"]

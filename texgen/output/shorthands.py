@@ -13,7 +13,8 @@ from typing import Any
 import sympy as sp
 
 from ..spec.model import Spacetime
-from .latex import MAX_WIDTH, estimate_width, to_latex
+from .latex import to_latex
+from .layout import MAX_WIDTH, estimate_width
 
 
 SHORTHAND_KERNELS = ("A", "B", "D", "E", "F", "H", "K", "L", "N", "P", "S", "U", "V", "W", "X", "Y", "Z")

@@ -13,7 +13,7 @@ from ...physics import _tools as tools
 from ...physics.analysis import CONDITIONS, analyse
 from ...physics.chart import time_index
 from ...spec.expressions import expression_to_text
-from ..latex import estimate_width
+from ..layout import estimate_width
 from ..printer import equation
 
 
